@@ -1,0 +1,40 @@
+//! The `lightfold` command line: parse, call the library, print, map errors to exit codes
+//! (0 ok, 1 bad input, 2 internal failure). No physics lives here.
+
+mod cli;
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+/// Monte Carlo ray tracing of light trapping in textured, coated silicon wafers.
+///
+/// Results are engineering estimates; product ratings need certified measurement.
+#[derive(Parser)]
+#[command(name = "lightfold", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Coating calculator: R, T and absorptance per layer of a thin-film stack.
+    Film(cli::film::FilmArgs),
+    /// List the material library or show one material's n, k and α.
+    Materials(cli::materials::MaterialsArgs),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let outcome = match cli.command {
+        Command::Film(args) => cli::film::run(args),
+        Command::Materials(args) => cli::materials::run(args),
+    };
+    match outcome {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(failure) => {
+            eprintln!("error: {failure}");
+            ExitCode::from(failure.exit_code())
+        }
+    }
+}
