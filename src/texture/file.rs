@@ -794,19 +794,18 @@ impl Ctx<'_> {
                         );
                     }
                 }
-                Some(SizeDistribution::Uniform {
-                    min_um: lo?,
-                    max_um: hi?,
-                })
+                lo.zip(hi)
+                    .map(|(min_um, max_um)| SizeDistribution::Uniform { min_um, max_um })
             }
             Some(_) => {
                 let mean = self.required_length(keys[0], "random-pyramids");
                 let spread =
                     self.non_negative(keys[1], 0.0, "a relative standard deviation (σ/mean)");
-                Some(SizeDistribution::LogNormal {
-                    mean_um: mean?,
-                    spread_rel: spread?,
-                })
+                mean.zip(spread)
+                    .map(|(mean_um, spread_rel)| SizeDistribution::LogNormal {
+                        mean_um,
+                        spread_rel,
+                    })
             }
             None => None,
         };
