@@ -1,1 +1,17 @@
-//! (to be written)
+//! Walks rays through one textured, coated interface (`surface`) and through the whole wafer
+//! (`wafer_trace`, later); events go into a [`Tally`].
+//!
+//! Invariant: every figure comes with its standard error; for every ray the booked powers
+//! (reflected, transmitted, film layers, abandoned) add up to its initial weight.
+//! Not here: angular binning (`redistribution`), stacks of thick layers (`wafer`).
+
+pub mod polarisation;
+pub mod response;
+pub mod surface;
+pub mod tally;
+
+pub use response::{BareInterface, FacetResponse, FacetSample, Side, MAX_FILM_LAYERS};
+pub use surface::{
+    ExitObserver, Incidence, InputPolarisation, PolarisationMode, Surface, RAYS_PER_CHUNK,
+};
+pub use tally::{Estimate, Moments, Tally};
