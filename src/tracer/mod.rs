@@ -10,7 +10,10 @@ pub mod response;
 pub mod surface;
 pub mod tally;
 
-pub use response::{BareInterface, FacetResponse, FacetSample, Side, MAX_FILM_LAYERS};
+pub use response::{
+    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, Side,
+    MAX_FILM_LAYERS,
+};
 pub use surface::{
     ExitObserver, Incidence, InputPolarisation, PolarisationMode, Surface, RAYS_PER_CHUNK,
 };

@@ -6,25 +6,19 @@
 //! plane of incidence; r_p, t_p are in the convention of Born & Wolf (1999) §1.5.2, in which
 //! r_p = −r_s at normal incidence (the same as Byrnes' `tmm`).
 
+use crate::thinfilm::{AngleTable, FilmStack, FullSample, Layer};
+
 /// Most film layers a coating may have on one facet (scenario validation enforces it).
 pub const MAX_FILM_LAYERS: usize = 12;
 
-/// Which side of the surface light arrives from.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-pub enum Side {
-    /// From the medium above the surface (z > texture top).
-    Above,
-    /// From the medium below the surface (z < texture bottom).
-    Below,
-}
+pub use crate::thinfilm::Side;
 
-impl Side {
-    /// The other side.
-    pub fn flip(self) -> Side {
-        match self {
-            Side::Above => Side::Below,
-            Side::Below => Side::Above,
-        }
+/// The other side.
+#[inline]
+pub fn other(side: Side) -> Side {
+    match side {
+        Side::Above => Side::Below,
+        Side::Below => Side::Above,
     }
 }
 
@@ -148,6 +142,133 @@ impl FacetResponse for BareInterface {
         let rp = (c - d) / (c + d);
         let (rs2, rp2) = (rs * rs, rp * rp);
         [rs2, rp2, 1.0 - rs2, 1.0 - rp2]
+    }
+}
+
+/// How film thickness varies over a textured surface.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum CoatingGeometry {
+    /// The given thickness along every facet normal. Default: the thickness engineers quote
+    /// for a textured wafer is the one measured on the facets (e.g. by cross-section SEM),
+    /// and plasma and atomic-layer deposition coat pyramids nearly conformally (common
+    /// practice, no source).
+    #[default]
+    Conformal,
+    /// Line-of-sight deposition: the given planar-equivalent thickness × cos(facet tilt).
+    Directional,
+}
+
+/// A coated interface at one wavelength, from angle tables (one pair per facet tilt level
+/// for directional coatings).
+#[derive(Debug)]
+pub struct CoatedInterface {
+    n_layers: usize,
+    /// (cos tilt, table from above, table from below), sorted by cos tilt.
+    levels: Vec<(f64, AngleTable, AngleTable)>,
+}
+
+impl CoatedInterface {
+    /// Tables for `stack` at `wavelength_nm`. For `Directional` coatings one pair of tables
+    /// is built per distinct facet tilt in `cos_tilts` (rounded to 1e-4), each with the film
+    /// thicknesses scaled by the tilt's cosine; hits use the nearest level.
+    pub fn new(
+        stack: &FilmStack,
+        wavelength_nm: f64,
+        geometry: CoatingGeometry,
+        cos_tilts: &[f64],
+    ) -> Result<CoatedInterface, crate::thinfilm::FilmError> {
+        let n_layers = stack.n_layers();
+        let mut tilts: Vec<f64> = match geometry {
+            CoatingGeometry::Conformal => vec![1.0],
+            CoatingGeometry::Directional if n_layers == 0 => vec![1.0],
+            CoatingGeometry::Directional => {
+                cos_tilts.iter().map(|c| (c.clamp(0.0, 1.0) * 1e4).round() / 1e4).collect()
+            }
+        };
+        tilts.sort_by(f64::total_cmp);
+        tilts.dedup();
+        if tilts.is_empty() {
+            tilts.push(1.0);
+        }
+        let mut levels = Vec::with_capacity(tilts.len());
+        for c in tilts {
+            let scaled = if geometry == CoatingGeometry::Directional && n_layers > 0 {
+                let layers = stack
+                    .layers()
+                    .iter()
+                    .map(|l| Layer::new(l.index, l.thickness_nm * c))
+                    .collect();
+                FilmStack::new(stack.above(), layers, stack.below())?
+            } else {
+                stack.clone()
+            };
+            let above = AngleTable::build(&scaled, wavelength_nm);
+            let below = AngleTable::build(&scaled.reversed(), wavelength_nm);
+            levels.push((c, above, below));
+        }
+        Ok(CoatedInterface { n_layers, levels })
+    }
+
+    /// Largest interpolation error of any table (see `AngleTable::max_error`).
+    pub fn max_table_error(&self) -> f64 {
+        self.levels.iter().map(|(_, a, b)| a.max_error().max(b.max_error())).fold(0.0, f64::max)
+    }
+
+    #[inline]
+    fn table(&self, side: Side, cos_tilt: f64) -> &AngleTable {
+        let level = if self.levels.len() == 1 {
+            &self.levels[0]
+        } else {
+            let i = self.levels.partition_point(|l| l.0 < cos_tilt);
+            let below = i.saturating_sub(1);
+            let i = i.min(self.levels.len() - 1);
+            if (self.levels[i].0 - cos_tilt).abs() < (self.levels[below].0 - cos_tilt).abs() {
+                &self.levels[i]
+            } else {
+                &self.levels[below]
+            }
+        };
+        match side {
+            Side::Above => &level.1,
+            Side::Below => &level.2,
+        }
+    }
+}
+
+thread_local! {
+    static FULL: std::cell::RefCell<FullSample> = std::cell::RefCell::new(FullSample::default());
+}
+
+impl FacetResponse for CoatedInterface {
+    fn n_layers(&self) -> usize {
+        self.n_layers
+    }
+
+    #[inline]
+    fn sample(&self, side: Side, cos_theta: f64, cos_tilt: f64, out: &mut FacetSample) {
+        let table = self.table(side, cos_tilt);
+        FULL.with_borrow_mut(|full| {
+            table.lookup_full(cos_theta, full);
+            out.r_s = full.power.r_s;
+            out.r_p = full.power.r_p;
+            out.t_s = full.power.t_s;
+            out.t_p = full.power.t_p;
+            out.r_cross = (full.reflection_cross.re, full.reflection_cross.im);
+            out.t_cross = (full.transmission_cross.re, full.transmission_cross.im);
+            // Tables list layers in the order light meets them; tallies go top to bottom.
+            let n = self.n_layers;
+            for j in 0..n {
+                let k = if side == Side::Above { j } else { n - 1 - j };
+                out.a_s[k] = full.absorptance_s[j];
+                out.a_p[k] = full.absorptance_p[j];
+            }
+        });
+    }
+
+    #[inline]
+    fn power(&self, side: Side, cos_theta: f64, cos_tilt: f64) -> [f64; 4] {
+        let p = self.table(side, cos_tilt).lookup(cos_theta);
+        [p.r_s, p.r_p, p.t_s, p.t_p]
     }
 }
 

@@ -9,7 +9,7 @@
 //! Invariant: for every ray, reflected + transmitted + Σ film + abandoned = its initial weight.
 
 use super::polarisation::{self, Polarised};
-use super::response::{FacetResponse, FacetSample, Side};
+use super::response::{other, FacetResponse, FacetSample, Side};
 use super::tally::{polar_bin, Tally, HIT_BINS};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{orthonormal_basis, FacetId, Vec3};
@@ -227,14 +227,14 @@ impl<'a> Surface<'a> {
             } else if reflect {
                 k - 2.0 * k_dot_n * n
             } else {
-                let eta = self.index(side) / self.index(side.flip());
+                let eta = self.index(side) / self.index(other(side));
                 let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
                 let cos_t = (1.0 - sin2_t).max(0.0).sqrt();
                 (eta * k + (eta * cos_i - cos_t) * facing).normalize()
             };
             debug_assert!((new_dir.length() - 1.0).abs() < 1e-9);
             if !reflect {
-                side = side.flip();
+                side = other(side);
             }
             // Keep the reference axis perpendicular to the new direction.
             ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir).normalize_or(
