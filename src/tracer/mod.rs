@@ -9,12 +9,15 @@ pub mod polarisation;
 pub mod response;
 pub mod surface;
 pub mod tally;
+pub mod wafer_trace;
 
 pub use response::{
     BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, Side,
     MAX_FILM_LAYERS,
 };
 pub use surface::{
-    ExitObserver, Incidence, InputPolarisation, PolarisationMode, Surface, RAYS_PER_CHUNK,
+    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, Surface,
+    RAYS_PER_CHUNK,
 };
 pub use tally::{Estimate, Moments, Tally};
+pub use wafer_trace::{ThickLayer, WaferModel, WaferModelError, WaferTally};

@@ -76,6 +76,26 @@ pub trait ExitObserver: Send + Default {
     fn merge(&mut self, other: Self);
 }
 
+/// Absorption in the thick media on either side of a surface, along each path segment
+/// inside the texture's height range (the texture's own volume belongs to the medium it is
+/// made of: light inside a silicon pyramid is absorbed there too).
+pub trait BulkSink {
+    /// A segment of `length` µm from `start` along `dir` in the medium on `side`, entered
+    /// with power `weight`; returns the power that survives it (Beer–Lambert) and books the
+    /// rest.
+    fn segment(&mut self, side: Side, start: Vec3, dir: Vec3, length: f64, weight: f64) -> f64;
+}
+
+/// Non-absorbing media on both sides (the surface tracer between half-spaces).
+pub struct Clear;
+
+impl BulkSink for Clear {
+    #[inline]
+    fn segment(&mut self, _: Side, _: Vec3, _: Vec3, _: f64, weight: f64) -> f64 {
+        weight
+    }
+}
+
 impl ExitObserver for () {
     fn exit(&mut self, _: Vec3, _: Side, _: Vec3, _: f64) {}
     fn merge(&mut self, _: Self) {}
@@ -121,19 +141,23 @@ impl<'a> Surface<'a> {
         }
     }
 
-    /// Follows `ray`, currently in the medium on `side`, until it leaves the texture slab.
-    /// Film absorption is added to `film` (per layer); returns the outcome, the final ray and
-    /// the number of facet events. Works in the texture's unit-cell frame.
-    pub fn follow(
+    /// Follows `ray`, currently in the medium on `side`, until it leaves the texture slab;
+    /// a ray that leaves is moved onto the slab's boundary plane (z_max above, z_min below).
+    /// Film absorption is added to `film` (per layer), bulk absorption inside the slab goes
+    /// to `bulk`; returns the outcome and the number of facet events. Works in the texture's
+    /// unit-cell frame.
+    pub fn follow<B: BulkSink>(
         &self,
         ray: &mut Ray,
         mut side: Side,
         rng: &mut Stream,
         film: &mut [f64],
         sample: &mut FacetSample,
+        bulk: &mut B,
     ) -> (Outcome, u32) {
         let kind = self.texture.kind();
         let n_layers = self.response.n_layers();
+        let [z_lo, z_hi] = self.texture.z_range_um();
         let mut events = 0u32;
         loop {
             let Some(hit) = self.texture.intersect(ray.origin, ray.dir, ray.skip) else {
@@ -142,12 +166,18 @@ impl<'a> Surface<'a> {
                     Side::Above => ray.dir.z > 0.0,
                     Side::Below => ray.dir.z < 0.0,
                 };
-                return if ok {
-                    (Outcome::Left(side), events)
-                } else {
-                    (Outcome::Abandoned { lost: true }, events)
-                };
+                if !ok {
+                    return (Outcome::Abandoned { lost: true }, events);
+                }
+                // Last segment inside the slab, to its boundary plane.
+                let z_end = if side == Side::Above { z_hi } else { z_lo };
+                let t = ((z_end - ray.origin.z) / ray.dir.z).max(0.0);
+                ray.pol.s = scaled(ray.pol.s, bulk.segment(side, ray.origin, ray.dir, t, ray.pol.s[0]));
+                ray.origin += ray.dir * t;
+                ray.origin.z = z_end;
+                return (Outcome::Left(side), events);
             };
+            ray.pol.s = scaled(ray.pol.s, bulk.segment(side, ray.origin, ray.dir, hit.t, ray.pol.s[0]));
             events += 1;
             if events > MAX_EVENTS {
                 return (Outcome::Abandoned { lost: false }, events);
@@ -312,7 +342,8 @@ impl<'a> Surface<'a> {
             let mut ray = self.launch(incidence, rng);
             let start = ray.dir;
             film[..n_layers].iter_mut().for_each(|a| *a = 0.0);
-            let (outcome, events) = self.follow(&mut ray, side_in, rng, &mut film, &mut sample);
+            let (outcome, events) =
+                self.follow(&mut ray, side_in, rng, &mut film, &mut sample, &mut Clear);
             tally.rays += 1;
             tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
             for j in 0..n_layers {
@@ -419,6 +450,16 @@ impl<'a> Surface<'a> {
             next = need.clamp(done + 1, max_chunks);
         }
     }
+}
+
+/// `s` rescaled so that its intensity is `w`.
+#[inline]
+fn scaled(s: [f64; 4], w: f64) -> [f64; 4] {
+    if s[0] == w || s[0] == 0.0 {
+        return s;
+    }
+    let f = w / s[0];
+    s.map(|v| v * f)
 }
 
 /// Cosine-weighted direction around +z.
