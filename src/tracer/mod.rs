@@ -12,12 +12,12 @@ pub mod tally;
 pub mod wafer_trace;
 
 pub use response::{
-    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, Side,
-    MAX_FILM_LAYERS,
+    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, MAX_FILM_LAYERS,
+    Side,
 };
 pub use surface::{
-    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, Surface,
-    RAYS_PER_CHUNK,
+    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, RAYS_PER_CHUNK,
+    Surface,
 };
 pub use tally::{Estimate, Moments, Tally};
 pub use wafer_trace::{ThickLayer, WaferModel, WaferModelError, WaferTally};

@@ -181,9 +181,10 @@ impl CoatedInterface {
         let mut tilts: Vec<f64> = match geometry {
             CoatingGeometry::Conformal => vec![1.0],
             CoatingGeometry::Directional if n_layers == 0 => vec![1.0],
-            CoatingGeometry::Directional => {
-                cos_tilts.iter().map(|c| (c.clamp(0.0, 1.0) * 1e4).round() / 1e4).collect()
-            }
+            CoatingGeometry::Directional => cos_tilts
+                .iter()
+                .map(|c| (c.clamp(0.0, 1.0) * 1e4).round() / 1e4)
+                .collect(),
         };
         tilts.sort_by(f64::total_cmp);
         tilts.dedup();
@@ -211,7 +212,10 @@ impl CoatedInterface {
 
     /// Largest interpolation error of any table (see `AngleTable::max_error`).
     pub fn max_table_error(&self) -> f64 {
-        self.levels.iter().map(|(_, a, b)| a.max_error().max(b.max_error())).fold(0.0, f64::max)
+        self.levels
+            .iter()
+            .map(|(_, a, b)| a.max_error().max(b.max_error()))
+            .fold(0.0, f64::max)
     }
 
     #[inline]
@@ -279,7 +283,10 @@ mod tests {
     #[test]
     fn normal_incidence_reflectance_is_textbook() {
         // R = ((n1 − n2)/(n1 + n2))², Born & Wolf (1999) §1.5.3.
-        let b = BareInterface { n_above: 1.0, n_below: 3.9 };
+        let b = BareInterface {
+            n_above: 1.0,
+            n_below: 3.9,
+        };
         let [rs, rp, ts, tp] = b.power(Side::Above, 1.0, 1.0);
         let r = ((1.0f64 - 3.9) / 4.9).powi(2);
         assert!((rs - r).abs() < 1e-15 && (rp - r).abs() < 1e-15);
@@ -288,7 +295,10 @@ mod tests {
 
     #[test]
     fn brewster_and_total_internal_reflection() {
-        let b = BareInterface { n_above: 1.0, n_below: 1.5 };
+        let b = BareInterface {
+            n_above: 1.0,
+            n_below: 1.5,
+        };
         let cos_b = 1.5f64.atan().cos();
         assert!(b.power(Side::Above, cos_b, 1.0)[1] < 1e-28);
         // From glass beyond the critical angle (41.8°): R = 1, and |r_s r_p*| = 1.
@@ -302,7 +312,10 @@ mod tests {
     #[test]
     fn transmission_cross_term_is_geometric_mean_for_real_coefficients() {
         // For real t_s, t_p the Mueller transmission block has |τ| = √(T_s T_p).
-        let b = BareInterface { n_above: 1.0, n_below: 3.5 };
+        let b = BareInterface {
+            n_above: 1.0,
+            n_below: 3.5,
+        };
         let mut s = FacetSample::default();
         b.sample(Side::Above, 0.5, 1.0, &mut s);
         assert!((s.t_cross.0 - (s.t_s * s.t_p).sqrt()).abs() < 1e-14);

@@ -9,10 +9,10 @@
 //! Invariant: for every ray, reflected + transmitted + Σ film + abandoned = its initial weight.
 
 use super::polarisation::{self, Polarised};
-use super::response::{other, FacetResponse, FacetSample, Side};
-use super::tally::{polar_bin, Tally, HIT_BINS};
+use super::response::{FacetResponse, FacetSample, Side, other};
+use super::tally::{HIT_BINS, Tally, polar_bin};
 use crate::geometry::robust::offset_origin;
-use crate::geometry::{orthonormal_basis, FacetId, Vec3};
+use crate::geometry::{FacetId, Vec3, orthonormal_basis};
 use crate::sampling::Stream;
 use crate::texture::{SurfaceKind, Texture};
 use rayon::prelude::*;
@@ -51,7 +51,11 @@ pub enum InputPolarisation {
 pub enum Incidence {
     /// From the upper medium, travelling at polar angle `theta` (radians, from −z) and
     /// azimuth `phi` (radians, of the propagation direction's horizontal component).
-    Above { theta: f64, phi: f64, polarisation: InputPolarisation },
+    Above {
+        theta: f64,
+        phi: f64,
+        polarisation: InputPolarisation,
+    },
     /// From the lower medium along `direction` (unit, z > 0), unpolarised.
     BelowDirection { direction: Vec3 },
     /// From the lower medium with isotropic radiance (cosine-weighted flux), unpolarised.
@@ -172,12 +176,18 @@ impl<'a> Surface<'a> {
                 // Last segment inside the slab, to its boundary plane.
                 let z_end = if side == Side::Above { z_hi } else { z_lo };
                 let t = ((z_end - ray.origin.z) / ray.dir.z).max(0.0);
-                ray.pol.s = scaled(ray.pol.s, bulk.segment(side, ray.origin, ray.dir, t, ray.pol.s[0]));
+                ray.pol.s = scaled(
+                    ray.pol.s,
+                    bulk.segment(side, ray.origin, ray.dir, t, ray.pol.s[0]),
+                );
                 ray.origin += ray.dir * t;
                 ray.origin.z = z_end;
                 return (Outcome::Left(side), events);
             };
-            ray.pol.s = scaled(ray.pol.s, bulk.segment(side, ray.origin, ray.dir, hit.t, ray.pol.s[0]));
+            ray.pol.s = scaled(
+                ray.pol.s,
+                bulk.segment(side, ray.origin, ray.dir, hit.t, ray.pol.s[0]),
+            );
             events += 1;
             if events > MAX_EVENTS {
                 return (Outcome::Abandoned { lost: false }, events);
@@ -209,7 +219,10 @@ impl<'a> Surface<'a> {
                         for j in 0..n_layers {
                             film[j] += w * 0.5 * (sample.a_s[j] + sample.a_p[j]);
                         }
-                        (0.5 * (sample.r_s + sample.r_p), 0.5 * (sample.t_s + sample.t_p))
+                        (
+                            0.5 * (sample.r_s + sample.r_p),
+                            0.5 * (sample.t_s + sample.t_p),
+                        )
                     };
                     let total = r + t;
                     let reflect = rng.uniform() * total < r;
@@ -233,9 +246,15 @@ impl<'a> Surface<'a> {
                     let total = p_r + p_t;
                     let reflect = rng.uniform() * total < p_r;
                     let (out, p) = if reflect {
-                        (polarisation::apply(&s, sample.r_s, sample.r_p, sample.r_cross), p_r)
+                        (
+                            polarisation::apply(&s, sample.r_s, sample.r_p, sample.r_cross),
+                            p_r,
+                        )
                     } else {
-                        (polarisation::apply(&s, sample.t_s, sample.t_p, sample.t_cross), p_t)
+                        (
+                            polarisation::apply(&s, sample.t_s, sample.t_p, sample.t_cross),
+                            p_t,
+                        )
                     };
                     let scale = if p > 0.0 { total / p } else { 0.0 };
                     ray.pol.s = out.map(|v| v * scale);
@@ -253,7 +272,11 @@ impl<'a> Surface<'a> {
                 let d = lambert(rng);
                 let to_above = (side == Side::Above) == reflect;
                 ray.pol.s = [ray.pol.s[0], 0.0, 0.0, 0.0];
-                if to_above { d } else { Vec3::new(d.x, d.y, -d.z) }
+                if to_above {
+                    d
+                } else {
+                    Vec3::new(d.x, d.y, -d.z)
+                }
             } else if reflect {
                 k - 2.0 * k_dot_n * n
             } else {
@@ -267,9 +290,8 @@ impl<'a> Surface<'a> {
                 side = other(side);
             }
             // Keep the reference axis perpendicular to the new direction.
-            ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir).normalize_or(
-                orthonormal_basis(new_dir).0,
-            );
+            ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
+                .normalize_or(orthonormal_basis(new_dir).0);
             ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
             ray.dir = new_dir;
             ray.skip = Some(hit.facet);
@@ -283,8 +305,16 @@ impl<'a> Surface<'a> {
         let margin = 1e-6 * (1.0 + px.max(py) + (z_hi - z_lo));
         let (x, y) = (rng.uniform() * px, rng.uniform() * py);
         match *incidence {
-            Incidence::Above { theta, phi, polarisation } => {
-                let dir = Vec3::new(theta.sin() * phi.cos(), theta.sin() * phi.sin(), -theta.cos());
+            Incidence::Above {
+                theta,
+                phi,
+                polarisation,
+            } => {
+                let dir = Vec3::new(
+                    theta.sin() * phi.cos(),
+                    theta.sin() * phi.sin(),
+                    -theta.cos(),
+                );
                 // s axis: perpendicular to the plane through dir and z (x-z plane at normal).
                 let s_hat = if theta.sin().abs() < 1e-12 {
                     Vec3::new(-phi.sin(), phi.cos(), 0.0)
@@ -309,7 +339,10 @@ impl<'a> Surface<'a> {
                 Ray {
                     origin: Vec3::new(x, y, z_lo - margin),
                     dir,
-                    pol: Polarised { s: [1.0, 0.0, 0.0, 0.0], e1: orthonormal_basis(dir).0 },
+                    pol: Polarised {
+                        s: [1.0, 0.0, 0.0, 0.0],
+                        e1: orthonormal_basis(dir).0,
+                    },
                     skip: None,
                 }
             }
@@ -318,7 +351,10 @@ impl<'a> Surface<'a> {
                 Ray {
                     origin: Vec3::new(x, y, z_lo - margin),
                     dir,
-                    pol: Polarised { s: [1.0, 0.0, 0.0, 0.0], e1: orthonormal_basis(dir).0 },
+                    pol: Polarised {
+                        s: [1.0, 0.0, 0.0, 0.0],
+                        e1: orthonormal_basis(dir).0,
+                    },
                     skip: None,
                 }
             }
@@ -389,7 +425,14 @@ impl<'a> Surface<'a> {
         seed: u64,
         job_key: u64,
     ) -> (Tally, O) {
-        self.trace_chunks(incidence, 0, n_rays.div_ceil(RAYS_PER_CHUNK), n_rays, seed, job_key)
+        self.trace_chunks(
+            incidence,
+            0,
+            n_rays.div_ceil(RAYS_PER_CHUNK),
+            n_rays,
+            seed,
+            job_key,
+        )
     }
 
     /// Chunks `first..last` of a job of `n_rays` in total (the last chunk may be short).
@@ -441,7 +484,10 @@ impl<'a> Surface<'a> {
             tally.merge(&t);
             obs.merge(o);
             done = next;
-            let se = tally.reflectance().std_error.max(tally.transmittance().std_error);
+            let se = tally
+                .reflectance()
+                .std_error
+                .max(tally.transmittance().std_error);
             if se <= target_se || done >= max_chunks {
                 return (tally, obs);
             }

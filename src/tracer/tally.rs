@@ -104,7 +104,10 @@ impl Tally {
     }
 
     fn estimate(&self, m: &Moments) -> Estimate {
-        Estimate { value: m.mean(self.rays), std_error: m.std_error(self.rays) }
+        Estimate {
+            value: m.mean(self.rays),
+            std_error: m.std_error(self.rays),
+        }
     }
     /// Reflectance with its standard error.
     pub fn reflectance(&self) -> Estimate {
@@ -124,7 +127,11 @@ impl Tally {
     }
     /// Mean ⟨1/cos θ⟩ of transmitted light (1 for normal transmission).
     pub fn transmitted_path_factor(&self) -> f64 {
-        if self.transmitted.sum > 0.0 { self.transmitted_inv_cos / self.transmitted.sum } else { 0.0 }
+        if self.transmitted.sum > 0.0 {
+            self.transmitted_inv_cos / self.transmitted.sum
+        } else {
+            0.0
+        }
     }
     /// Mean number of facet events per ray (the last histogram bin counted at its floor).
     pub fn mean_hits(&self) -> f64 {
@@ -132,7 +139,12 @@ impl Tally {
         if n == 0 {
             return 0.0;
         }
-        self.hits.iter().enumerate().map(|(k, &c)| k as f64 * c as f64).sum::<f64>() / n as f64
+        self.hits
+            .iter()
+            .enumerate()
+            .map(|(k, &c)| k as f64 * c as f64)
+            .sum::<f64>()
+            / n as f64
     }
     /// Largest |R + T + ΣA + abandoned − 1| in the accounting, as a fraction of incident power.
     pub fn energy_error(&self) -> f64 {

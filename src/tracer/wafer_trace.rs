@@ -18,8 +18,8 @@
 //! * Interface responses seen from inside a weakly absorbing thick layer use the real part of
 //!   its index; its absorption is taken along the path instead (DESIGN §4).
 
-use super::response::{FacetSample, Side, MAX_FILM_LAYERS};
-use super::surface::{BulkSink, Outcome, Surface, MAX_EVENTS, RAYS_PER_CHUNK};
+use super::response::{FacetSample, MAX_FILM_LAYERS, Side};
+use super::surface::{BulkSink, MAX_EVENTS, Outcome, RAYS_PER_CHUNK, Surface};
 use super::tally::{Estimate, Moments};
 use crate::geometry::Vec3;
 use crate::sampling::Stream;
@@ -54,7 +54,11 @@ pub enum WaferModelError {
         "thick layer {layer} is {thickness_um} µm thick but the textures above and below \
          reach {reach_um} µm into it: make the layer thicker than the textures' depth"
     )]
-    TexturesOverlap { layer: usize, thickness_um: f64, reach_um: f64 },
+    TexturesOverlap {
+        layer: usize,
+        thickness_um: f64,
+        reach_um: f64,
+    },
     #[error("a stack needs n interfaces and n − 1 thick layers (got {interfaces} and {layers})")]
     Shape { interfaces: usize, layers: usize },
     #[error("the absorber index {0} names no thick layer")]
@@ -133,7 +137,10 @@ impl WaferTally {
 
     /// Mean and standard error of a per-ray outcome.
     pub fn estimate(&self, m: &Moments) -> Estimate {
-        Estimate { value: m.mean(self.rays), std_error: m.std_error(self.rays) }
+        Estimate {
+            value: m.mean(self.rays),
+            std_error: m.std_error(self.rays),
+        }
     }
 
     /// |R + T + ΣA + abandoned − 1| in the accounting.
@@ -141,10 +148,14 @@ impl WaferTally {
         if self.rays == 0 {
             return 0.0;
         }
-        let films: f64 = self.films.iter().flat_map(|f| f.iter()).map(|m| m.sum).sum();
+        let films: f64 = self
+            .films
+            .iter()
+            .flat_map(|f| f.iter())
+            .map(|m| m.sum)
+            .sum();
         let layers: f64 = self.layers.iter().map(|m| m.sum).sum();
-        let total =
-            self.reflected.sum + self.transmitted.sum + films + layers + self.abandoned.sum;
+        let total = self.reflected.sum + self.transmitted.sum + films + layers + self.abandoned.sum;
         (total / self.rays as f64 - 1.0).abs()
     }
 }
@@ -189,7 +200,9 @@ impl<'a> WaferModel<'a> {
     pub fn profile_edges_um(&self) -> Vec<f64> {
         let (lo, hi) = self.profile_span();
         let n = self.profile_bins.max(1);
-        (0..=n).map(|i| lo + (hi - lo) * i as f64 / n as f64).collect()
+        (0..=n)
+            .map(|i| lo + (hi - lo) * i as f64 / n as f64)
+            .collect()
     }
 
     fn profile_span(&self) -> (f64, f64) {
@@ -208,7 +221,14 @@ impl<'a> WaferModel<'a> {
         seed: u64,
         job_key: u64,
     ) -> WaferTally {
-        self.trace_chunks(incidence, 0, n_rays.div_ceil(RAYS_PER_CHUNK), n_rays, seed, job_key)
+        self.trace_chunks(
+            incidence,
+            0,
+            n_rays.div_ceil(RAYS_PER_CHUNK),
+            n_rays,
+            seed,
+            job_key,
+        )
     }
 
     fn trace_chunks(
@@ -287,9 +307,14 @@ impl<'a> WaferModel<'a> {
         let mut sample = FacetSample::default();
         let (p_lo, p_hi) = self.profile_span();
         let bins = self.profile_bins;
-        let bin_scale = if p_hi > p_lo { bins as f64 / (p_hi - p_lo) } else { 0.0 };
+        let bin_scale = if p_hi > p_lo {
+            bins as f64 / (p_hi - p_lo)
+        } else {
+            0.0
+        };
         for _ in 0..rays {
-            film.iter_mut().for_each(|f| f.iter_mut().for_each(|a| *a = 0.0));
+            film.iter_mut()
+                .for_each(|f| f.iter_mut().for_each(|a| *a = 0.0));
             bulk.iter_mut().for_each(|a| *a = 0.0);
             let mut ray = self.interfaces[0].launch(incidence, &mut rng);
             let mut interface = 0usize;
@@ -368,7 +393,10 @@ impl<'a> WaferModel<'a> {
                             let depth = d0 + s * (-ray.dir.z);
                             deposit(&mut tally.profile, depth, p_lo, bin_scale, absorbed);
                         }
-                        ray.pol.s = ray.pol.s.map(|v| v * if w > 0.0 { survive / w } else { 0.0 });
+                        ray.pol.s = ray
+                            .pol
+                            .s
+                            .map(|v| v * if w > 0.0 { survive / w } else { 0.0 });
                         // Re-randomise the lateral position over the next texture's cell.
                         let next_tex = self.interfaces[next].texture;
                         let [px, py] = next_tex.period_um();
@@ -380,7 +408,11 @@ impl<'a> WaferModel<'a> {
                         );
                         ray.skip = None;
                         interface = next;
-                        side = if exit == Side::Below { Side::Above } else { Side::Below };
+                        side = if exit == Side::Below {
+                            Side::Above
+                        } else {
+                            Side::Below
+                        };
                     }
                 }
             }
@@ -470,7 +502,13 @@ impl BulkSink for LayerSink<'_, '_> {
                 Side::Above => self.model.layers[layer].thickness_um - start.z,
             };
             let s = sample_exponential(self.rng, alpha, length);
-            deposit(self.profile, d0 - s * dir.z, self.p_lo, self.bin_scale, absorbed);
+            deposit(
+                self.profile,
+                d0 - s * dir.z,
+                self.p_lo,
+                self.bin_scale,
+                absorbed,
+            );
         }
         survive
     }
