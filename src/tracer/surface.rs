@@ -298,12 +298,25 @@ impl<'a> Surface<'a> {
         }
     }
 
-    /// Starts a ray for `incidence` at a random position in the unit cell.
-    pub fn launch(&self, incidence: &Incidence, rng: &mut Stream) -> Ray {
+    /// A random point in the unit cell just outside the texture's height range on `side`
+    /// (by 1e-6 of the feature size, so the first intersection is never at t = 0).
+    pub fn entry_point(&self, side: Side, rng: &mut Stream) -> Vec3 {
         let [px, py] = self.texture.period_um();
         let [z_lo, z_hi] = self.texture.z_range_um();
         let margin = 1e-6 * (1.0 + px.max(py) + (z_hi - z_lo));
-        let (x, y) = (rng.uniform() * px, rng.uniform() * py);
+        let z = match side {
+            Side::Above => z_hi + margin,
+            Side::Below => z_lo - margin,
+        };
+        Vec3::new(rng.uniform() * px, rng.uniform() * py, z)
+    }
+
+    /// Starts a ray for `incidence` at a random position in the unit cell.
+    pub fn launch(&self, incidence: &Incidence, rng: &mut Stream) -> Ray {
+        let unpolarised = |dir: Vec3| Polarised {
+            s: [1.0, 0.0, 0.0, 0.0],
+            e1: orthonormal_basis(dir).0,
+        };
         match *incidence {
             Incidence::Above {
                 theta,
@@ -327,8 +340,9 @@ impl<'a> Surface<'a> {
                     InputPolarisation::P => [1.0, -1.0, 0.0, 0.0],
                     InputPolarisation::Linear(a) => [1.0, (2.0 * a).cos(), -(2.0 * a).sin(), 0.0],
                 };
+                let origin = self.entry_point(Side::Above, rng);
                 Ray {
-                    origin: Vec3::new(x, y, z_hi + margin),
+                    origin,
                     dir,
                     pol: Polarised { s, e1: s_hat },
                     skip: None,
@@ -336,25 +350,21 @@ impl<'a> Surface<'a> {
             }
             Incidence::BelowDirection { direction } => {
                 let dir = direction.normalize();
+                let origin = self.entry_point(Side::Below, rng);
                 Ray {
-                    origin: Vec3::new(x, y, z_lo - margin),
+                    origin,
                     dir,
-                    pol: Polarised {
-                        s: [1.0, 0.0, 0.0, 0.0],
-                        e1: orthonormal_basis(dir).0,
-                    },
+                    pol: unpolarised(dir),
                     skip: None,
                 }
             }
             Incidence::BelowIsotropic => {
+                let origin = self.entry_point(Side::Below, rng);
                 let dir = lambert(rng);
                 Ray {
-                    origin: Vec3::new(x, y, z_lo - margin),
+                    origin,
                     dir,
-                    pol: Polarised {
-                        s: [1.0, 0.0, 0.0, 0.0],
-                        e1: orthonormal_basis(dir).0,
-                    },
+                    pol: unpolarised(dir),
                     skip: None,
                 }
             }

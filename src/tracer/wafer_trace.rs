@@ -398,21 +398,14 @@ impl<'a> WaferModel<'a> {
                             .s
                             .map(|v| v * if w > 0.0 { survive / w } else { 0.0 });
                         // Re-randomise the lateral position over the next texture's cell.
-                        let next_tex = self.interfaces[next].texture;
-                        let [px, py] = next_tex.period_um();
-                        let [lo, hi] = next_tex.z_range_um();
-                        ray.origin = Vec3::new(
-                            rng.uniform() * px,
-                            rng.uniform() * py,
-                            if exit == Side::Below { hi } else { lo },
-                        );
-                        ray.skip = None;
-                        interface = next;
                         side = if exit == Side::Below {
                             Side::Above
                         } else {
                             Side::Below
                         };
+                        ray.origin = self.interfaces[next].entry_point(side, &mut rng);
+                        ray.skip = None;
+                        interface = next;
                     }
                 }
             }
