@@ -8,7 +8,7 @@
 
 use lightfold::optics::absorption_coefficient_per_cm;
 use lightfold::optics::materials::{
-    self, Dispersion, DrudeLorentz, DrudeTerm, HC_EV_NM, LorentzOscillator, Material,
+    self, Cauchy, Dispersion, DrudeLorentz, DrudeTerm, HC_EV_NM, LorentzOscillator, Material,
     MaterialError, TaucLorentz,
 };
 use std::io::Write;
@@ -368,6 +368,31 @@ fn drude_lorentz_limits() {
         dl.index(HC_EV_NM / 10.0).im > 0.1,
         "absorbs at resonance, k ≥ 0"
     );
+}
+
+#[test]
+fn cauchy_model_reproduces_rubin_glass_index() {
+    // M. Rubin, Sol. Energy Mater. 12, 275 (1985), clear soda-lime glass:
+    // n = 1.513 − 0.003169 λ² + 0.003962/λ² (λ in µm), valid 310–4600 nm. The built-in table
+    // holds the refractiveindex.info evaluation of that formula at its k wavelengths.
+    let model = Cauchy::new(
+        1.513,
+        vec![(-0.003169, 2.0), (0.003962, -2.0)],
+        (310.0, 4600.0),
+    )
+    .unwrap();
+    let table = material("glass-clear-rubin1985");
+    for wl in [310.0, 500.0, 1000.0, 2000.0, 2600.0] {
+        let tabulated = table.index_at(wl).unwrap().re;
+        assert!(
+            (model.n(wl) - tabulated).abs() < 2e-6,
+            "{wl} nm: {} vs {tabulated}",
+            model.n(wl)
+        );
+    }
+    // Clear glass absorbs weakly (iron): k > 0 but α < 1 cm⁻¹ in the visible.
+    let k = table.index_at(500.0).unwrap().im;
+    assert!(k > 0.0 && absorption_coefficient_per_cm(k, 500.0) < 1.0);
 }
 
 #[test]

@@ -17,7 +17,7 @@
 //!
 //! Frame rotation: the rotation matrix of R. A. Chipman, W. S. T. Lam & G. Young,
 //! *Polarized Light and Optical Systems*, CRC Press (2018), Mueller-calculus chapter, with
-//! rows [1,0,0,0], [0,cos2ψ,sin2ψ,0], [0,−sin2ψ,cos2ψ,0], [0,0,0,1]; ψ is the angle of the
+//! rows `[1,0,0,0]`, `[0,cos2ψ,sin2ψ,0]`, `[0,−sin2ψ,cos2ψ,0]`, `[0,0,0,1]`; ψ is the angle of the
 //! new x̂ from the old x̂, positive towards the old ŷ.
 //!
 //! Invariant: a Mueller matrix built from amplitudes ([`Mueller::from_amplitudes`]) maps a
@@ -115,7 +115,7 @@ impl Mueller {
     }
 
     /// Frame rotation by `angle_rad` (new x̂ turned from old x̂ towards old ŷ): rows
-    /// [1,0,0,0], [0,cos2ψ,sin2ψ,0], [0,−sin2ψ,cos2ψ,0], [0,0,0,1].
+    /// `[1,0,0,0]`, `[0,cos2ψ,sin2ψ,0]`, `[0,−sin2ψ,cos2ψ,0]`, `[0,0,0,1]`.
     /// Source: Chipman, Lam & Young (2018) (rotation of Mueller matrices); an element
     /// M turned by θ about k̂ is `rotation(−θ) * M * rotation(θ)`.
     pub fn rotation(angle_rad: f64) -> Mueller {

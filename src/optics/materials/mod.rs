@@ -311,7 +311,7 @@ pub fn resolve(spec: &str) -> Result<Material, MaterialError> {
     let text = spec.trim();
     if text.is_empty() {
         return Err(MaterialError::Unknown {
-            id: String::new(),
+            id: "(empty text)".to_string(),
             suggestions: Vec::new(),
         });
     }

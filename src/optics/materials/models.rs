@@ -12,7 +12,7 @@ use crate::optics::Index;
 use num_complex::Complex64;
 use std::f64::consts::PI;
 
-/// hc in eV·nm (CODATA 2018): photon energy E[eV] = HC_EV_NM / λ[nm].
+/// hc in eV·nm (CODATA 2018): photon energy E in eV = `HC_EV_NM` / (λ in nm).
 pub const HC_EV_NM: f64 = 1239.841984;
 
 /// One dispersion model with its validity range.
