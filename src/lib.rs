@@ -24,6 +24,7 @@
 //! Results are engineering estimates; product ratings need certified measurement.
 
 pub mod geometry;
+pub mod simulate;
 pub mod optics;
 pub mod redistribution;
 pub mod report;
