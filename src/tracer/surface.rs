@@ -289,9 +289,12 @@ impl<'a> Surface<'a> {
             if !reflect {
                 side = other(side);
             }
-            // Keep the reference axis perpendicular to the new direction.
-            ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
-                .normalize_or(orthonormal_basis(new_dir).0);
+            // Keep the reference axis perpendicular to the new direction (Stokes only: an
+            // unpolarised ray needs none).
+            if self.polarisation == PolarisationMode::Stokes {
+                ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
+                    .normalize_or(orthonormal_basis(new_dir).0);
+            }
             ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
             ray.dir = new_dir;
             ray.skip = Some(hit.facet);
