@@ -22,6 +22,8 @@ enum Command {
     Film(cli::film::FilmArgs),
     /// List the material library or show one material's n, k and α.
     Materials(cli::materials::MaterialsArgs),
+    /// Trace one textured, coated interface: R, T, film absorptance, light-path obliqueness.
+    Surface(cli::surface::SurfaceArgs),
 }
 
 fn main() -> ExitCode {
@@ -29,6 +31,7 @@ fn main() -> ExitCode {
     let outcome = match cli.command {
         Command::Film(args) => cli::film::run(args),
         Command::Materials(args) => cli::materials::run(args),
+        Command::Surface(args) => cli::surface::run(args),
     };
     match outcome {
         Ok(()) => ExitCode::SUCCESS,

@@ -63,16 +63,16 @@ pub enum Pol {
 }
 
 /// A resolved medium with the text the user wrote.
-struct Medium {
+pub(super) struct Medium {
     spec: String,
     what: String,
-    material: Material,
+    pub(super) material: Material,
 }
 
 /// A film: its medium and thickness.
-struct Film {
-    medium: Medium,
-    thickness_nm: f64,
+pub(super) struct Film {
+    pub(super) medium: Medium,
+    pub(super) thickness_nm: f64,
 }
 
 /// One solved (wavelength, angle) point.
@@ -172,7 +172,7 @@ fn resolve(option: &str, spec: &str) -> Result<Medium, Failure> {
 }
 
 /// `MATERIAL:THICKNESS_NM`, split at the last colon (a Windows path keeps its drive colon).
-fn parse_layer(position: usize, spec: &str) -> Result<Film, Failure> {
+pub(super) fn parse_layer(position: usize, spec: &str) -> Result<Film, Failure> {
     let what = format!("--layer {position} (`{spec}`)");
     let Some((material, thickness)) = spec.rsplit_once(':') else {
         return Err(Failure::BadInput(format!(
@@ -213,7 +213,7 @@ fn material_spec(layer_spec: &str) -> String {
 }
 
 /// Angles in degrees: `0`, `0,30,60` or `start:stop:step`; each in [0, 90).
-fn parse_angles(text: &str) -> Result<Vec<f64>, Failure> {
+pub(super) fn parse_angles(text: &str) -> Result<Vec<f64>, Failure> {
     let expected = "`0`, a comma list such as `0,30,60`, or start:stop:step such as `0:80:10`, \
                     in degrees within [0, 90)";
     let fail = |problem: String, fix: &str| {
@@ -289,7 +289,7 @@ fn parse_band(text: &str) -> Result<(f64, f64), Failure> {
 }
 
 /// A --csv target must sit in an existing folder; checked before any work is done.
-fn check_output_folder(path: &Path) -> Result<(), Failure> {
+pub(super) fn check_output_folder(path: &Path) -> Result<(), Failure> {
     let folder = parent_folder(path);
     if !folder.is_dir() {
         return Err(Failure::BadInput(format!(
@@ -656,7 +656,7 @@ fn json_text(
 
 /// Write `text` to a temporary file in the target's folder, then rename it over the target:
 /// a failure never leaves half a file or clobbers an old one.
-fn write_atomically(path: &Path, text: &str) -> Result<(), Failure> {
+pub(super) fn write_atomically(path: &Path, text: &str) -> Result<(), Failure> {
     let folder = parent_folder(path);
     let name = path
         .file_name()

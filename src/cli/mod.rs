@@ -2,6 +2,8 @@
 
 pub mod film;
 pub mod materials;
+pub mod progress;
+pub mod surface;
 
 /// Why a command failed, mapped to the process exit code.
 #[derive(Debug, thiserror::Error)]

@@ -4,8 +4,8 @@
 
 use super::Failure;
 use crate::cli::progress::Bar;
-use lightfold::optics::materials::{self, Material};
 use lightfold::optics::Index;
+use lightfold::optics::materials::{self, Material};
 use lightfold::texture::{self, Texture};
 use lightfold::thinfilm::{FilmStack, Layer};
 use lightfold::tracer::{
@@ -107,7 +107,11 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
     let films = args
         .layers
         .iter()
-        .map(|s| super::film::parse_layer_spec(s))
+        .enumerate()
+        .map(|(i, s)| {
+            let f = super::film::parse_layer(i + 1, s)?;
+            Ok((f.medium.material, f.thickness_nm))
+        })
         .collect::<Result<Vec<(Material, f64)>, Failure>>()?;
     if films.len() > lightfold::tracer::MAX_FILM_LAYERS {
         return Err(Failure::BadInput(format!(
@@ -129,13 +133,19 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
         .map_err(|e| Failure::BadInput(format!("--wavelengths: {e}")))?;
     let angles = super::film::parse_angles(&args.angles)?;
     let polarisation = parse_pol(&args.pol)?;
-    let mode = if args.unpolarised { PolarisationMode::Unpolarised } else { PolarisationMode::Stokes };
+    let mode = if args.unpolarised {
+        PolarisationMode::Unpolarised
+    } else {
+        PolarisationMode::Stokes
+    };
     if args.rays == 0 {
         return Err(Failure::BadInput("--rays 0: trace at least one ray".into()));
     }
     if let Some(t) = args.target_se {
         if !(t > 0.0 && t < 1.0) {
-            return Err(Failure::BadInput(format!("--target-se {t}: expected a number in (0, 1)")));
+            return Err(Failure::BadInput(format!(
+                "--target-se {t}: expected a number in (0, 1)"
+            )));
         }
     }
     let from = args.from.as_str();
@@ -144,7 +154,11 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
             "--from {from}: expected `above`, `below` or `below-isotropic`"
         )));
     }
-    let angles = if from == "below-isotropic" { vec![0.0] } else { angles };
+    let angles = if from == "below-isotropic" {
+        vec![0.0]
+    } else {
+        angles
+    };
     if let Some(path) = &args.csv {
         super::film::check_output_folder(path)?;
     }
@@ -162,7 +176,10 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
         let stack = FilmStack::new(Index::new(n_above.re, 0.0), layers, n_below)
             .map_err(|e| Failure::BadInput(e.to_string()))?;
         let response: Box<dyn FacetResponse> = if stack.n_layers() == 0 && n_below.im == 0.0 {
-            Box::new(BareInterface { n_above: n_above.re, n_below: n_below.re })
+            Box::new(BareInterface {
+                n_above: n_above.re,
+                n_below: n_below.re,
+            })
         } else {
             Box::new(
                 CoatedInterface::new(&stack, wl, geometry, &[1.0, 0.577_350_269_189_625_8])
@@ -180,7 +197,11 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
             let theta = angle.to_radians();
             let phi = args.azimuth.to_radians();
             let incidence = match from {
-                "above" => Incidence::Above { theta, phi, polarisation },
+                "above" => Incidence::Above {
+                    theta,
+                    phi,
+                    polarisation,
+                },
                 "below" => Incidence::BelowDirection {
                     direction: lightfold::geometry::Vec3::new(
                         theta.sin() * phi.cos(),
@@ -222,9 +243,15 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
             "seed": args.seed,
             "points": rows,
         });
-        println!("{}", serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.to_string()))?);
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&doc).map_err(|e| Failure::Internal(e.to_string()))?
+        );
     } else {
-        print!("{}", table_text(&*texture, &above, &below, &films, &rows, mode));
+        print!(
+            "{}",
+            table_text(&*texture, &above, &below, &films, &rows, mode)
+        );
     }
     Ok(())
 }
@@ -247,7 +274,9 @@ fn parse_pol(text: &str) -> Result<InputPolarisation, Failure> {
             .ok()
             .filter(|a| a.is_finite())
             .map(|a| InputPolarisation::Linear(a.to_radians()))
-            .ok_or_else(|| Failure::BadInput(format!("--pol {t}: expected linear:DEG, e.g. linear:45"))),
+            .ok_or_else(|| {
+                Failure::BadInput(format!("--pol {t}: expected linear:DEG, e.g. linear:45"))
+            }),
         t => Err(Failure::BadInput(format!(
             "--pol {t}: expected unpolarised, s, p or linear:DEG"
         ))),
@@ -262,7 +291,10 @@ pub fn load_texture(spec: &str) -> Result<Box<dyn Texture>, Failure> {
         return texture::from_file(path).map_err(bad);
     }
     if !spec.contains(',') && !spec.contains('=') {
-        for base in [PathBuf::from("geometries"), Path::new(env!("CARGO_MANIFEST_DIR")).join("geometries")] {
+        for base in [
+            PathBuf::from("geometries"),
+            Path::new(env!("CARGO_MANIFEST_DIR")).join("geometries"),
+        ] {
             let candidate = base.join(format!("{spec}.toml"));
             if candidate.is_file() {
                 return texture::from_file(&candidate).map_err(bad);
@@ -305,7 +337,9 @@ fn row(wl: f64, angle: f64, n_layers: usize, t: &Tally) -> Row {
         transmittance: t.transmittance().value,
         transmittance_se: t.transmittance().std_error,
         film_absorptance: (0..n_layers).map(|j| t.film_absorptance(j).value).collect(),
-        film_absorptance_se: (0..n_layers).map(|j| t.film_absorptance(j).std_error).collect(),
+        film_absorptance_se: (0..n_layers)
+            .map(|j| t.film_absorptance(j).std_error)
+            .collect(),
         transmitted_path_factor: t.transmitted_path_factor(),
         mean_facet_hits: t.mean_hits(),
         hits_histogram: t.hits.to_vec(),
@@ -333,7 +367,11 @@ fn table_text(
     let coating = if films.is_empty() {
         "bare".to_string()
     } else {
-        films.iter().map(|(m, t)| format!("{} {t} nm", m.id())).collect::<Vec<_>>().join(" / ")
+        films
+            .iter()
+            .map(|(m, t)| format!("{} {t} nm", m.id()))
+            .collect::<Vec<_>>()
+            .join(" / ")
     };
     out.push_str(&format!(
         "surface: {}\n  {} above | {} | {} below; {} tracking\n",
@@ -341,7 +379,11 @@ fn table_text(
         above.id(),
         coating,
         below.id(),
-        if mode == PolarisationMode::Stokes { "Stokes" } else { "unpolarised" }
+        if mode == PolarisationMode::Stokes {
+            "Stokes"
+        } else {
+            "unpolarised"
+        }
     ));
     let mut header = format!(
         "{:>8} {:>6} {:>9} {:>17} {:>17}",
@@ -356,37 +398,69 @@ fn table_text(
     for r in rows {
         let mut line = format!(
             "{:>8.1} {:>6.1} {:>9} {:>9.5} ± {:.5} {:>9.5} ± {:.5}",
-            r.wavelength_nm, r.angle_deg, r.rays, r.reflectance, r.reflectance_se, r.transmittance, r.transmittance_se
+            r.wavelength_nm,
+            r.angle_deg,
+            r.rays,
+            r.reflectance,
+            r.reflectance_se,
+            r.transmittance,
+            r.transmittance_se
         );
         for j in 0..films.len() {
-            line.push_str(&format!(" {:>9.5} ± {:.5}", r.film_absorptance[j], r.film_absorptance_se[j]));
+            line.push_str(&format!(
+                " {:>9.5} ± {:.5}",
+                r.film_absorptance[j], r.film_absorptance_se[j]
+            ));
         }
-        line.push_str(&format!(" {:>10.4} {:>6.2}", r.transmitted_path_factor, r.mean_facet_hits));
+        line.push_str(&format!(
+            " {:>10.4} {:>6.2}",
+            r.transmitted_path_factor, r.mean_facet_hits
+        ));
         out.push_str(&line);
         out.push('\n');
     }
-    let lost: u64 = rows.iter().map(|r| r.lost_rays + r.event_limited_rays).sum();
+    let lost: u64 = rows
+        .iter()
+        .map(|r| r.lost_rays + r.event_limited_rays)
+        .sum();
     if lost > 0 {
-        out.push_str(&format!("note: {lost} rays were given up (numerics or event limit)\n"));
+        out.push_str(&format!(
+            "note: {lost} rays were given up (numerics or event limit)\n"
+        ));
     }
     out.push_str("Monte Carlo estimates with standard errors; engineering estimates, not certified measurements.\n");
     out
 }
 
 fn csv_text(rows: &[Row], n_films: usize) -> String {
-    let mut out = String::from("# lightfold surface: fractions of incident power; *_se = standard error\n");
-    out.push_str("wavelength_nm,angle_deg,rays,reflectance,reflectance_se,transmittance,transmittance_se");
+    let mut out =
+        String::from("# lightfold surface: fractions of incident power; *_se = standard error\n");
+    out.push_str(
+        "wavelength_nm,angle_deg,rays,reflectance,reflectance_se,transmittance,transmittance_se",
+    );
     for j in 0..n_films {
-        out.push_str(&format!(",film{0}_absorptance,film{0}_absorptance_se", j + 1));
+        out.push_str(&format!(
+            ",film{0}_absorptance,film{0}_absorptance_se",
+            j + 1
+        ));
     }
     out.push_str(",transmitted_path_factor,mean_facet_hits,lost_rays,event_limited_rays\n");
     for r in rows {
         out.push_str(&format!(
             "{:?},{:?},{},{:?},{:?},{:?},{:?}",
-            r.wavelength_nm, r.angle_deg, r.rays, r.reflectance, r.reflectance_se, r.transmittance, r.transmittance_se
+            r.wavelength_nm,
+            r.angle_deg,
+            r.rays,
+            r.reflectance,
+            r.reflectance_se,
+            r.transmittance,
+            r.transmittance_se
         ));
         for j in 0..n_films {
-            out.push_str(&format!(",{:?},{:?}", r.film_absorptance[j], r.film_absorptance_se[j]));
+            out.push_str(&format!(
+                ",{:?},{:?}",
+                r.film_absorptance[j], r.film_absorptance_se[j]
+            ));
         }
         out.push_str(&format!(
             ",{:?},{:?},{},{}\n",
