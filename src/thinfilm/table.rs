@@ -347,6 +347,7 @@ impl AngleTable {
     /// division); indices are clamped as floats first, so no NaN or out-of-range value
     /// reaches an index, and the clamped truncation needs no saturation code.
     #[inline(always)]
+    #[allow(clippy::manual_clamp)] // min/max map NaN into range; `clamp` would keep NaN
     fn locate(&self, cos_theta_i: f64) -> (usize, f64) {
         const M: f64 = COARSE_CELLS as f64;
         let c = cos_theta_i.clamp(0.0, 1.0);
