@@ -22,6 +22,13 @@ use std::path::{Path, PathBuf};
 /// `wavelength_nm,n,k` (a path containing `/` or ending in `.csv`), or a constant complex
 /// index such as `2.05+0.001i`. An absorbing incidence medium is taken by its real part.
 #[derive(clap::Args, Debug)]
+#[command(
+    after_help = "MATERIAL is a library id or alias (`lightfold materials` lists them), \
+a CSV file of wavelength_nm,n,k (a path containing `/` or ending in `.csv`), or a constant \
+index n+ki such as `2.05+0.001i`. Light comes from --above and meets the layers in the order \
+given. An absorbing incidence medium is taken by its real index.\n\n\
+Example: lightfold film --layer sio2:10 --layer 2.0:70 --below si --wavelengths 300:1200:10"
+)]
 pub struct FilmArgs {
     /// Incidence medium.
     #[arg(long, value_name = "MATERIAL", default_value = "air")]
@@ -166,7 +173,7 @@ fn resolve(option: &str, spec: &str) -> Result<Medium, Failure> {
         .map_err(|e| Failure::BadInput(format!("{option} `{spec}`: {e}")))?;
     Ok(Medium {
         spec: spec.to_owned(),
-        what: option.to_owned(),
+        what: format!("{option} `{spec}`"),
         material,
     })
 }
@@ -326,7 +333,7 @@ fn stack_at(
     let index = |m: &Medium| -> Result<Index, Failure> {
         m.material
             .index_at(wavelength_nm)
-            .map_err(|e| Failure::BadInput(format!("{} `{}`: {e}", m.what, m.spec)))
+            .map_err(|e| Failure::BadInput(format!("{}: {e}", m.what)))
     };
     let above_index = index(above)?;
     let layers = films
@@ -643,8 +650,8 @@ fn json_text(
             "below": medium(below),
             "light_from": "above",
         },
-        "wavelengths": args.wavelengths,
-        "angles_deg": args.angles,
+        "wavelengths_given": args.wavelengths,
+        "angles_given_deg": args.angles,
         "results": results,
         "weighted_reflectance": weighted,
     });
