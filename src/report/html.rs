@@ -241,7 +241,7 @@ impl Page {
                 Block::Figure { name, caption, svg } => {
                     let _ = write!(s, "<figure data-plot=\"{}\">\n{}", escape(name), svg);
                     if !caption.is_empty() {
-                        let _ = write!(s, "<figcaption>{}</figcaption>\n", escape(caption));
+                        let _ = writeln!(s, "<figcaption>{}</figcaption>", escape(caption));
                     }
                     s.push_str("</figure>\n");
                 }
