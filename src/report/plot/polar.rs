@@ -171,16 +171,29 @@ impl PolarMap {
         let block_w = bar_w + st.tick_len + st.pad * 0.6 + label_w + st.pad * 1.2 + st.fs + st.pad;
         let area_w = (w - block_w - st.pad * 2.0).max(20.0);
         let area_h = (h - top - note_h).max(20.0);
+        let (phi_lo, phi_hi) = if ok {
+            (self.phi_edges_deg[0], self.phi_edges_deg[n_p])
+        } else {
+            (0.0, 360.0)
+        };
+        let full = phi_hi - phi_lo >= 359.999;
+        // Fit the drawn sector (unit radius, y up) into the area, leaving room for labels.
+        let (ux0, ux1, uy0, uy1) = sector_bounds(phi_lo, phi_hi);
         let rim_label = st.tick_fs * 2.6;
-        let radius = ((area_w.min(area_h)) / 2.0 - rim_label).max(5.0);
-        let c = [st.pad + area_w / 2.0, top + area_h / 2.0];
+        let radius = ((area_w - 2.0 * rim_label) / (ux1 - ux0))
+            .min((area_h - 2.0 * rim_label) / (uy1 - uy0))
+            .max(5.0);
+        let c = [
+            st.pad + area_w / 2.0 - radius * (ux0 + ux1) / 2.0,
+            top + area_h / 2.0 + radius * (uy0 + uy1) / 2.0,
+        ];
         let at = |r: f64, phi_deg: f64| -> P {
             let a = phi_deg.to_radians();
             [c[0] + r * a.cos(), c[1] - r * a.sin()]
         };
 
         // Cells.
-        let seam = 0.6;
+        let seam = 1.0;
         for i in 0..n_t {
             let (t0, t1) = (self.theta_edges_deg[i], self.theta_edges_deg[i + 1]);
             let (r0, r1) = (
@@ -212,12 +225,6 @@ impl PolarMap {
 
         // Grid: rings at 30° and 60°, spokes every 45° (within the φ range), rim.
         let grid = WHITE.with_alpha(0.55);
-        let (phi_lo, phi_hi) = if ok {
-            (self.phi_edges_deg[0], self.phi_edges_deg[n_p])
-        } else {
-            (0.0, 360.0)
-        };
-        let full = phi_hi - phi_lo >= 359.999;
         let arc = |r: f64| -> Vec<P> {
             let n = (((phi_hi - phi_lo) / 2.0).ceil() as usize).max(2);
             (0..=n)
@@ -261,23 +268,33 @@ impl PolarMap {
                 &format!("φ {deg:.0}°"),
             );
         }
+        // θ labels: inside the disc between two spokes, or just below the first spoke of a
+        // sector (outside its data).
         let label_phi = if full { -22.5 } else { phi_lo };
+        let label_fs = st.tick_fs * 0.9;
+        let th = font::cap_height(label_fs);
         for t in [30.0_f64, 60.0, 90.0] {
             let p = at(radius * t.to_radians().sin(), label_phi);
             let text = format!("{t:.0}°");
-            let tw = font::text_width(&text, st.tick_fs * 0.9);
-            let th = font::cap_height(st.tick_fs * 0.9);
-            let x = p[0] + st.pad * 0.3;
+            let tw = font::text_width(&text, label_fs);
+            let (x, y) = if full {
+                (p[0] + st.pad * 0.3, p[1])
+            } else {
+                // Below the spoke: offset perpendicular to it, clockwise side.
+                let a = (label_phi - 90.0).to_radians();
+                let d = th * 0.8 + 3.0;
+                (p[0] + d * a.cos() - tw / 2.0, p[1] - d * a.sin())
+            };
             scene.rect(
                 x - 2.0,
-                p[1] - th / 2.0 - 2.0,
+                y - th / 2.0 - 2.0,
                 tw + 4.0,
                 th + 4.0,
                 WHITE.with_alpha(0.75),
             );
             scene.text(
-                [x, p[1]],
-                st.tick_fs * 0.9,
+                [x, y],
+                label_fs,
                 Anchor::Start,
                 VAlign::Middle,
                 false,
@@ -287,7 +304,7 @@ impl PolarMap {
             );
         }
         scene.text(
-            [c[0], h - st.pad],
+            [st.pad + area_w / 2.0, h - st.pad],
             st.tick_fs,
             Anchor::Middle,
             VAlign::Baseline,
@@ -360,9 +377,44 @@ impl PolarMap {
 
 drawable!(PolarMap);
 
+/// Bounding box (x0, x1, y0, y1) of the unit-radius sector from `phi_lo` to `phi_hi`
+/// degrees, centre included, y up.
+fn sector_bounds(phi_lo: f64, phi_hi: f64) -> (f64, f64, f64, f64) {
+    if phi_hi - phi_lo >= 360.0 - 1e-9 {
+        return (-1.0, 1.0, -1.0, 1.0);
+    }
+    let mut pts = vec![(0.0_f64, 0.0_f64)];
+    for a in [phi_lo, phi_hi] {
+        pts.push((a.to_radians().cos(), a.to_radians().sin()));
+    }
+    // Axis directions crossed by the arc.
+    let mut k = (phi_lo / 90.0).ceil() as i64;
+    while (k as f64) * 90.0 <= phi_hi {
+        let a = (k as f64 * 90.0).to_radians();
+        pts.push((a.cos(), a.sin()));
+        k += 1;
+    }
+    let x0 = pts.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
+    let x1 = pts.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
+    let y0 = pts.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
+    let y1 = pts.iter().map(|p| p.1).fold(f64::NEG_INFINITY, f64::max);
+    // A thin sector would blow up the scale: keep at least a quarter of a radius each way.
+    (x0.min(x1 - 0.25), x1, y0.min(y1 - 0.25), y1)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn sector_bounds_cover_the_drawn_part() {
+        assert_eq!(sector_bounds(0.0, 360.0), (-1.0, 1.0, -1.0, 1.0));
+        let (x0, x1, y0, y1) = sector_bounds(0.0, 90.0);
+        assert!(x0.abs() < 1e-12 && (x1 - 1.0).abs() < 1e-12);
+        assert!(y0.abs() < 1e-12 && (y1 - 1.0).abs() < 1e-12);
+        let (x0, x1, _, y1) = sector_bounds(0.0, 180.0);
+        assert!((x0 + 1.0).abs() < 1e-12 && (x1 - 1.0).abs() < 1e-12 && (y1 - 1.0).abs() < 1e-12);
+    }
 
     #[test]
     fn colour_map_ends_are_the_viridis_ends() {
