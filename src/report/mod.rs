@@ -18,7 +18,7 @@ pub mod plot;
 
 use std::path::PathBuf;
 
-pub use csv::{Column, CsvWriter};
+pub use csv::{Cell, Column, CsvWriter};
 pub use files::{ResultsDir, write_atomic, write_atomic_with};
 pub use plot::{
     BarChart, BarGroup, Color, Layer, LinePlot, Plot, PolarMap, Series, SeriesStyle, StackedArea,

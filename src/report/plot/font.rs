@@ -4,7 +4,7 @@
 //!
 //! Covers printable ASCII, the Latin-1 accented letters in common use, the Greek letters
 //! used in optics (λ θ φ α σ µ Δ π …), super- and subscript digits (built from the digits),
-//! and symbols such as ° × · ± ≈ ≤ ≥ − – — → ∞ √ ‰-free percent. Anything else is drawn as
+//! and symbols such as ° × · ± ≈ ≤ ≥ − – — → ∞ √ ∝ %. Anything else is drawn as
 //! an open box.
 //!
 //! Glyph syntax (parsed once): strokes separated by `;`; a stroke is a list of points `x,y`
