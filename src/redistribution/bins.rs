@@ -137,7 +137,10 @@ impl AngleBins {
                 "start at 0 (normal) and end at 1 (grazing)",
             ));
         }
-        if let Some(w) = sin2_edges.windows(2).position(|w| !(w[1] > w[0])) {
+        if let Some(w) = sin2_edges
+            .windows(2)
+            .position(|w| w[1] <= w[0] || w[1].is_nan() || w[0].is_nan())
+        {
             return Err(invalid(
                 format!(
                     "polar edges {} and {} (positions {w}, {}) are not increasing",

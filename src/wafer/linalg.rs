@@ -51,7 +51,7 @@ impl Lu {
                     p = i;
                 }
             }
-            if !(best > floor) {
+            if best <= floor || best.is_nan() {
                 return Err(Singular {
                     column: k,
                     pivot: best,

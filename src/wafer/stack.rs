@@ -421,7 +421,8 @@ impl Stack {
         let total: f64 = incident.iter().sum();
         if incident.len() != n
             || incident.iter().any(|x| !(x.is_finite() && *x >= 0.0))
-            || !(total > 0.0)
+            || total <= 0.0
+            || total.is_nan()
         {
             return Err(WaferError::Incidence {
                 problem: format!("{} values, sum {total}", incident.len()),
@@ -483,7 +484,7 @@ impl Stack {
         let absorbed: f64 = thick.iter().sum::<f64>() + film.iter().flatten().sum::<f64>();
         let residual = (1.0 - (r + absorbed + t + unaccounted)).abs();
         // A bug detector, not the accuracy claim (tests hold the residual below 1e-12).
-        if !(residual < ACCOUNTING_FAILURE) {
+        if residual >= ACCOUNTING_FAILURE || residual.is_nan() {
             return Err(WaferError::Accounting {
                 wavelength_nm: self.wavelength_nm,
                 residual,
@@ -561,9 +562,9 @@ impl Stack {
                     up: bool,
                     m: &Matrix,
                     j: usize| {
-            for i in 0..n {
-                if !seen[l][i] && m.get(i, j) != 0.0 {
-                    seen[l][i] = true;
+            for (i, s) in seen[l].iter_mut().enumerate() {
+                if !*s && m.get(i, j) != 0.0 {
+                    *s = true;
                     work.push((l, up, i));
                 }
             }

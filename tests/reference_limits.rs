@@ -1,0 +1,64 @@
+//! Special functions and Lambertian limits against independent references computed by
+//! `tests/reference/gen_limits.py` (numpy, scipy.special.expn, pvlib's copy of ASTM G173-03,
+//! and M. A. Green's 2008 silicon data in data/nk/si_green2008.csv), committed as
+//! `tests/reference/gen_limits.json`.
+//!
+//! Lambertian limit: T. Tiedje, E. Yablonovitch, G. D. Cody & B. G. Brooks, IEEE Trans.
+//! Electron Devices 31, 711 (1984); E. Yablonovitch, J. Opt. Soc. Am. 72, 899 (1982).
+//! Context only (not compared): A. Richter, M. Hermle & S. W. Glunz, IEEE J. Photovolt. 3,
+//! 1184 (2013) include free-carrier absorption in their limiting currents, so theirs differ.
+
+use lightfold::wafer::limits::{
+    alpha_per_cm, double_pass, lambertian_exact, single_pass, tiedje_yablonovitch,
+};
+use lightfold::wafer::special::expint_en;
+use serde_json::Value;
+
+fn reference() -> Value {
+    let text = include_str!("reference/gen_limits.json");
+    serde_json::from_str(text).expect("tests/reference/gen_limits.json parses")
+}
+
+#[test]
+fn exponential_integrals_match_scipy_expn() {
+    let r = reference();
+    let rows = r["expn"].as_array().unwrap();
+    assert!(rows.len() >= 70);
+    for row in rows {
+        let n = row["n"].as_u64().unwrap() as u32;
+        let x = row["x"].as_f64().unwrap();
+        let want = row["value"].as_f64().unwrap();
+        let got = expint_en(n, x);
+        let rel = if want == 0.0 {
+            got.abs()
+        } else {
+            (got / want - 1.0).abs()
+        };
+        assert!(
+            rel < 1e-13,
+            "E_{n}({x}) = {got:e}, scipy {want:e}, rel {rel:e}"
+        );
+    }
+}
+
+#[test]
+fn limit_absorptances_match_reference_pointwise() {
+    let r = reference();
+    for row in r["pointwise"].as_array().unwrap() {
+        let f = |k: &str| row[k].as_f64().unwrap();
+        let (w, wl, n, k) = (f("thickness_um"), f("wavelength_nm"), f("n"), f("k"));
+        let a = alpha_per_cm(k, wl);
+        for (name, got) in [
+            ("single_pass", single_pass(a, w)),
+            ("double_pass", double_pass(a, w)),
+            ("tiedje_yablonovitch", tiedje_yablonovitch(a, w, n)),
+            ("lambertian_exact", lambertian_exact(a, w, n)),
+        ] {
+            let want = f(name);
+            assert!(
+                (got - want).abs() < 1e-12 * want.max(1e-3),
+                "{name} at {wl} nm, W = {w}: {got} vs {want}"
+            );
+        }
+    }
+}
