@@ -343,3 +343,75 @@ mod tests {
         assert!(matches!(t.finish(), Err(MatrixError::Tally { .. })));
     }
 }
+
+#[cfg(test)]
+mod reciprocity_tests {
+    use super::*;
+    use crate::redistribution::{AngleBins, Hemisphere, MediumInfo};
+    use crate::sampling::Stream;
+    use crate::texture::Symmetry;
+
+    /// Synthetic Monte Carlo of an ideal Lambertian randomiser between n = 1 and n = 2:
+    /// from above everything enters (T = 1), from below 1/n² escapes, the rest is reflected;
+    /// outgoing directions cosine-distributed. This kernel is reciprocal, so the audit's
+    /// largest residual/σ must stay within the Gaussian extreme-value tolerance.
+    #[test]
+    fn lambertian_randomiser_tally_is_reciprocal_within_its_errors() {
+        let n = 2.0;
+        let bins = AngleBins::equal_etendue(4, 4, Symmetry::None).unwrap();
+        let setup = InterfaceSetup {
+            bins: bins.clone(),
+            wavelength_nm: 1000.0,
+            above: MediumInfo::new("air", 1.0),
+            below: MediumInfo::new("x", n),
+            film_layers: vec![],
+        };
+        let mut tally = MatrixTally::new(setup).unwrap();
+        for (si, side) in [Side::Above, Side::Below].into_iter().enumerate() {
+            for j in 0..bins.len() {
+                for chunk in 0..8u64 {
+                    let mut rng = Stream::new(7, (si * 1000 + j) as u64, chunk);
+                    let mut b = tally.batch(side, j);
+                    for _ in 0..2000 {
+                        b.launch(1.0);
+                        let escape = side == Side::Above || rng.uniform() < 1.0 / (n * n);
+                        let out_side = match (side, escape) {
+                            (Side::Above, _) | (Side::Below, false) => Side::Below,
+                            (Side::Below, true) => Side::Above,
+                        };
+                        let h = if out_side == Side::Above {
+                            Hemisphere::Up
+                        } else {
+                            Hemisphere::Down
+                        };
+                        // Cosine-weighted direction: uniform in sin²θ and φ.
+                        let (u1, u2) = (rng.uniform(), rng.uniform());
+                        let phi = std::f64::consts::TAU * u2;
+                        let dir = crate::geometry::Vec3::new(
+                            u1.sqrt() * phi.cos(),
+                            u1.sqrt() * phi.sin(),
+                            h.sign() * (1.0 - u1).sqrt(),
+                        );
+                        b.add(out_side, bins.index(dir), 1.0);
+                    }
+                    tally.add_batch(&b).unwrap();
+                }
+            }
+        }
+        let m = tally.finish().unwrap();
+        let a = &m.audit;
+        assert!(a.energy_max_abs < 1e-12, "{a:?}");
+        let tol = (2.0 * (2.0 * a.reciprocity_pairs as f64).ln()).sqrt() + 1.0;
+        let z = a.reciprocity_max_sigma.unwrap();
+        assert!(
+            z < tol,
+            "max residual {z:.2} σ over {} pairs, tolerance {tol:.2} σ",
+            a.reciprocity_pairs
+        );
+        // And it must detect a broken kernel: double one transmission element.
+        let mut broken = m.clone();
+        let v = broken.from_above.transmission.get(3, 5);
+        broken.from_above.transmission.set(3, 5, 2.0 * v);
+        assert!(broken.compute_audit().reciprocity_max_sigma.unwrap() > tol);
+    }
+}

@@ -129,6 +129,62 @@ pub fn limit_point(wavelength_nm: f64, n: f64, k: f64, thickness_um: f64) -> Lim
     }
 }
 
+/// Silicon's band-gap wavelength used for the "maximum current" band: 1107 nm ≈ hc/1.12 eV
+/// (band gap of crystalline silicon at 300 K; M. A. Green, *Solar Cells*, Prentice-Hall
+/// (1982), from memory). Green's 2008 k extends past it (phonon-assisted absorption), so
+/// Lambertian currents over a band reaching 1200 nm may exceed the A = 1 current up to 1107 nm.
+pub const SILICON_GAP_WAVELENGTH_NM: f64 = 1107.0;
+
+/// Photocurrents of the reference absorptances of one wafer under one spectrum.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct LimitSummary {
+    pub thickness_um: f64,
+    /// First and last wavelength of the grid, nm: the integration band.
+    pub band_nm: (f64, f64),
+    pub tiedje_yablonovitch_ma_cm2: f64,
+    pub lambertian_exact_ma_cm2: f64,
+    pub single_pass_ma_cm2: f64,
+    pub double_pass_ma_cm2: f64,
+    /// A = 1 over the whole band.
+    pub max_band_ma_cm2: f64,
+    /// A = 1 from the band start to min(band end, [`SILICON_GAP_WAVELENGTH_NM`]).
+    pub max_to_gap_ma_cm2: f64,
+    pub points: Vec<LimitPoint>,
+}
+
+/// Reference absorptances on `grid_nm` (n, k of the wafer material there) and their
+/// photocurrents under `spectrum` at its native resolution (absorptance interpolated
+/// linearly onto the spectrum's wavelengths inside the grid's range, as
+/// [`crate::spectrum::Spectrum::photocurrent_ma_cm2`] does).
+pub fn limit_summary(
+    spectrum: &crate::spectrum::Spectrum,
+    grid_nm: &[f64],
+    n: &[f64],
+    k: &[f64],
+    thickness_um: f64,
+) -> Result<LimitSummary, crate::spectrum::SpectrumError> {
+    let points: Vec<LimitPoint> = grid_nm
+        .iter()
+        .zip(n.iter().zip(k))
+        .map(|(wl, (n, k))| limit_point(*wl, *n, *k, thickness_um))
+        .collect();
+    let curve = |f: fn(&LimitPoint) -> f64| -> Vec<f64> { points.iter().map(f).collect() };
+    let j = |f: fn(&LimitPoint) -> f64| spectrum.photocurrent_ma_cm2(grid_nm, &curve(f));
+    let band = (grid_nm[0], grid_nm[grid_nm.len() - 1]);
+    Ok(LimitSummary {
+        thickness_um,
+        band_nm: band,
+        tiedje_yablonovitch_ma_cm2: j(|p| p.tiedje_yablonovitch)?,
+        lambertian_exact_ma_cm2: j(|p| p.lambertian_exact)?,
+        single_pass_ma_cm2: j(|p| p.single_pass)?,
+        double_pass_ma_cm2: j(|p| p.double_pass)?,
+        max_band_ma_cm2: spectrum.max_photocurrent_ma_cm2(band),
+        max_to_gap_ma_cm2: spectrum
+            .max_photocurrent_ma_cm2((band.0, band.1.min(SILICON_GAP_WAVELENGTH_NM))),
+        points,
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
