@@ -5,7 +5,10 @@
 //! the surface); the side a ray is on follows from the sign of `dir · normal`.
 //! Not here: which texture produced the hit (`texture`), what happens at it (`tracer`).
 
+pub mod crossing;
+pub mod grid;
 pub mod robust;
+pub mod triangle;
 
 pub use glam::DVec3 as Vec3;
 
@@ -23,7 +26,10 @@ pub struct Hit {
     pub t: f64,
     /// Hit point wrapped into the unit cell `[0, px) × [0, py)` (µm).
     pub point: Vec3,
-    /// Bound on the absolute rounding error of each coordinate of `point` (µm).
+    /// Bound on the absolute rounding error of each coordinate of `point` as a point of the
+    /// facet (µm): the box `point ± p_err` contains a point of the facet's plane, so
+    /// [`robust::offset_origin`] moves a new origin off the facet. (For grazing rays the
+    /// exact crossing may lie further along the facet than this box.)
     pub p_err: Vec3,
     /// Unit geometric normal of the facet, pointing up (+z side).
     pub normal: Vec3,

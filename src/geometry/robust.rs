@@ -25,7 +25,11 @@ pub fn offset_origin(p: Vec3, p_err: Vec3, n: Vec3, dir: Vec3) -> Vec3 {
             v
         }
     };
-    Vec3::new(bump(po.x, offset.x), bump(po.y, offset.y), bump(po.z, offset.z))
+    Vec3::new(
+        bump(po.x, offset.x),
+        bump(po.y, offset.y),
+        bump(po.z, offset.z),
+    )
 }
 
 #[cfg(test)]

@@ -322,18 +322,18 @@ impl AngleTable {
                     n_sub: n_sub as u32,
                     n_sub_f: n_sub as f64,
                 });
-                for j in 0..n_sub {
+                for cell_coeffs in coeffs.chunks_exact(n_ch) {
+                    // Transpose to [power][channel] so that Horner runs across channels.
                     let mut fast = [[0.0; FAST]; 4];
-                    for ch in 0..FAST {
+                    for (ch, c) in cell_coeffs[..FAST].iter().enumerate() {
                         for (power, row) in fast.iter_mut().enumerate() {
-                            row[ch] = coeffs[j * n_ch + ch][power];
+                            row[ch] = c[power];
                         }
                     }
                     self.fast.push(fast);
                     for power in 0..4 {
-                        for ch in FAST..n_ch {
-                            self.slow.push(coeffs[j * n_ch + ch][power]);
-                        }
+                        self.slow
+                            .extend(cell_coeffs[FAST..].iter().map(|c| c[power]));
                     }
                 }
                 return;
@@ -368,6 +368,11 @@ impl AngleTable {
     #[inline]
     pub fn lookup(&self, cos_theta_i: f64) -> PowerCoefficients {
         let (k, t) = self.locate(cos_theta_i);
+        self.fast_at(k, t)
+    }
+
+    #[inline(always)]
+    fn fast_at(&self, k: usize, t: f64) -> PowerCoefficients {
         let c = &self.fast[k];
         let mut v = c[3];
         for power in (0..3).rev() {
@@ -387,7 +392,7 @@ impl AngleTable {
     /// number of layers).
     pub fn lookup_full(&self, cos_theta_i: f64, out: &mut FullSample) {
         let (k, t) = self.locate(cos_theta_i);
-        out.power = self.lookup(cos_theta_i);
+        out.power = self.fast_at(k, t);
         let n = self.n_slow;
         let rows = &self.slow[k * 4 * n..(k + 1) * 4 * n];
         let value = |ch: usize| {

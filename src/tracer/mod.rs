@@ -1,1 +1,23 @@
-//! (to be written)
+//! Walks rays through one textured, coated interface (`surface`) and through the whole wafer
+//! (`wafer_trace`, later); events go into a [`Tally`].
+//!
+//! Invariant: every figure comes with its standard error; for every ray the booked powers
+//! (reflected, transmitted, film layers, abandoned) add up to its initial weight.
+//! Not here: angular binning (`redistribution`), stacks of thick layers (`wafer`).
+
+pub mod polarisation;
+pub mod response;
+pub mod surface;
+pub mod tally;
+pub mod wafer_trace;
+
+pub use response::{
+    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, MAX_FILM_LAYERS,
+    Side,
+};
+pub use surface::{
+    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, RAYS_PER_CHUNK,
+    Surface,
+};
+pub use tally::{Estimate, Moments, Tally};
+pub use wafer_trace::{ThickLayer, WaferModel, WaferModelError, WaferTally};

@@ -1,0 +1,488 @@
+//! Regular square pyramids on a square lattice: upright (alkaline-etched or lithographic
+//! upright pyramids) or inverted (lithographic pits), with optional flat gaps and rotation.
+//!
+//! Geometry, in the lattice frame (x, y along the lattice vectors, cell [0, p)², pyramid
+//! centred at (p/2, p/2), half base a = b/2, facet angle α from the base plane):
+//! * upright: z = max(0, h − tan α · max(|x − p/2|, |y − p/2|)), apex h = a·tan α; the base
+//!   plane z = 0 holds the pyramid feet and the flat gaps;
+//! * inverted: z = min(0, tan α · max(|x − p/2|, |y − p/2|) − h); the base plane z = 0 is
+//!   the top surface (rims and flat gaps), pit bottoms at −h.
+//!
+//! Wafer thickness is measured from the base plane z = 0 in both cases (upright pyramids add
+//! volume on top of it, inverted pits are cut into it).
+//! Facet ids (valid in the unit cell): 0 the facet on the +x side of the centre, 1 on −x,
+//! 2 on +y, 3 on −y, 4 the flat base plane (gaps; shared by all cells).
+//! Invariant: crossings are exact against the five planes (see [`crate::geometry::crossing`]);
+//! the cell a ray is in comes from a 2D walk over the lattice. Limits: period ≥ base.
+
+use super::{
+    MAX_CELLS_PER_QUERY, SI_111_ANGLE_DEG, Side, Symmetry, Texture, TextureError, cell_entry,
+    clamp_into, facet_hit, ray_point_err, side_at_origin, side_outside_slab, slab_interval,
+};
+use crate::geometry::crossing::{Gap, HeightPlane, Span};
+use crate::geometry::grid::GridWalk;
+use crate::geometry::{FacetId, Hit, Vec3, gamma};
+
+/// Id of the flat base plane.
+pub const FLAT_FACET: u32 = 4;
+
+/// Relative padding of the slab searched for crossings (a ray leaving it is surely off the
+/// surface), relative to the feature size.
+const PAD_REL: f64 = 1e-9;
+
+/// Parameters of a regular pyramid texture (file keys of the same names).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct RegularPyramidsSpec {
+    /// Base side of one pyramid, µm (> 0).
+    pub base_um: f64,
+    /// Facet angle from the base plane, degrees, in (0, 90). {111} on (100) Si: 54.7356°.
+    pub base_angle_deg: f64,
+    /// Lattice period, µm (≥ base_um; the difference is a flat gap at z = 0).
+    pub period_um: f64,
+    /// Rotation of the lattice about z, degrees (counter-clockwise from the x axis).
+    pub rotation_deg: f64,
+    /// Inverted pits instead of upright pyramids.
+    pub inverted: bool,
+}
+
+impl RegularPyramidsSpec {
+    /// Upright {111} pyramids of base `base_um`, touching (period = base), unrotated.
+    pub fn upright(base_um: f64) -> Self {
+        RegularPyramidsSpec {
+            base_um,
+            base_angle_deg: SI_111_ANGLE_DEG,
+            period_um: base_um,
+            rotation_deg: 0.0,
+            inverted: false,
+        }
+    }
+
+    /// Inverted {111} pyramids of base `base_um` on period `period_um`, unrotated.
+    pub fn inverted(base_um: f64, period_um: f64) -> Self {
+        RegularPyramidsSpec {
+            period_um,
+            inverted: true,
+            ..Self::upright(base_um)
+        }
+    }
+}
+
+/// Regular upright or inverted pyramids (see the module doc for the geometry).
+#[derive(Clone, Debug)]
+pub struct RegularPyramids {
+    spec: RegularPyramidsSpec,
+    period: f64,
+    height: f64,
+    half_base: f64,
+    centre: f64,
+    planes: [HeightPlane; 5],
+    /// Up normals in the lab frame.
+    normals: [Vec3; 5],
+    rotated: bool,
+    cos_r: f64,
+    sin_r: f64,
+    pad: f64,
+}
+
+/// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
+pub(crate) fn check_angle(name: &str, angle_deg: f64) -> Result<(), TextureError> {
+    if angle_deg.is_finite() && angle_deg > 0.0 && angle_deg < 90.0 {
+        Ok(())
+    } else {
+        Err(TextureError::parameter(
+            format!("{name} = {angle_deg}° is out of range"),
+            "a facet angle strictly between 0° and 90° (54.7356° for {111} facets on (100) Si)",
+            format!("set {name} between 0 and 90"),
+        ))
+    }
+}
+
+/// Checks a length in µm: finite and > 0.
+pub(crate) fn check_length(name: &str, value_um: f64) -> Result<(), TextureError> {
+    if value_um.is_finite() && value_um > 0.0 {
+        Ok(())
+    } else {
+        Err(TextureError::parameter(
+            format!("{name} = {value_um} µm is not a positive length"),
+            "a finite length > 0 in µm",
+            format!("set {name} to a positive number of micrometres"),
+        ))
+    }
+}
+
+impl RegularPyramids {
+    /// Builds the texture; errors name the offending parameter and its valid range.
+    pub fn new(spec: RegularPyramidsSpec) -> Result<Self, TextureError> {
+        check_length("base_um", spec.base_um)?;
+        check_length("period_um", spec.period_um)?;
+        check_angle("base_angle_deg", spec.base_angle_deg)?;
+        if spec.period_um < spec.base_um {
+            return Err(TextureError::parameter(
+                format!(
+                    "period_um = {} µm is smaller than base_um = {} µm",
+                    spec.period_um, spec.base_um
+                ),
+                "period_um ≥ base_um (pyramids may touch but not overlap)",
+                "increase period_um or reduce base_um",
+            ));
+        }
+        if !spec.rotation_deg.is_finite() {
+            return Err(TextureError::parameter(
+                format!("rotation_deg = {} is not a finite angle", spec.rotation_deg),
+                "a rotation in degrees",
+                "set rotation_deg to a number, e.g. 0 or 45",
+            ));
+        }
+        let tan_a = spec.base_angle_deg.to_radians().tan();
+        let half_base = 0.5 * spec.base_um;
+        let centre = 0.5 * spec.period_um;
+        let height = tan_a * half_base;
+        let g = HeightPlane::GROUND;
+        let planes = if spec.inverted {
+            [
+                HeightPlane {
+                    a: tan_a,
+                    b: 0.0,
+                    w: -height - tan_a * centre,
+                },
+                HeightPlane {
+                    a: -tan_a,
+                    b: 0.0,
+                    w: -height + tan_a * centre,
+                },
+                HeightPlane {
+                    a: 0.0,
+                    b: tan_a,
+                    w: -height - tan_a * centre,
+                },
+                HeightPlane {
+                    a: 0.0,
+                    b: -tan_a,
+                    w: -height + tan_a * centre,
+                },
+                g,
+            ]
+        } else {
+            [
+                HeightPlane {
+                    a: -tan_a,
+                    b: 0.0,
+                    w: height + tan_a * centre,
+                },
+                HeightPlane {
+                    a: tan_a,
+                    b: 0.0,
+                    w: height - tan_a * centre,
+                },
+                HeightPlane {
+                    a: 0.0,
+                    b: -tan_a,
+                    w: height + tan_a * centre,
+                },
+                HeightPlane {
+                    a: 0.0,
+                    b: tan_a,
+                    w: height - tan_a * centre,
+                },
+                g,
+            ]
+        };
+        let rot = spec.rotation_deg.to_radians();
+        let rotated = spec.rotation_deg.rem_euclid(360.0) != 0.0;
+        let (sin_r, cos_r) = if rotated { rot.sin_cos() } else { (0.0, 1.0) };
+        let to_lab = |v: Vec3| Vec3::new(cos_r * v.x - sin_r * v.y, sin_r * v.x + cos_r * v.y, v.z);
+        let normals = planes.map(|p| to_lab(p.normal()));
+        Ok(RegularPyramids {
+            spec,
+            period: spec.period_um,
+            height,
+            half_base,
+            centre,
+            planes,
+            normals,
+            rotated,
+            cos_r,
+            sin_r,
+            pad: PAD_REL * (spec.period_um + height),
+        })
+    }
+
+    /// The parameters this texture was built from.
+    pub fn spec(&self) -> RegularPyramidsSpec {
+        self.spec
+    }
+
+    /// Pyramid height (upright) or pit depth (inverted), µm.
+    pub fn height_um(&self) -> f64 {
+        self.height
+    }
+
+    /// Surface height at lattice-frame cell coordinates (x, y) ∈ [0, p)², µm.
+    pub fn height_at(&self, x: f64, y: f64) -> f64 {
+        let m = (x - self.centre).abs().max((y - self.centre).abs());
+        let tan_a = self.planes[1].a.abs();
+        if self.spec.inverted {
+            (tan_a * m - self.height).min(0.0)
+        } else {
+            (self.height - tan_a * m).max(0.0)
+        }
+    }
+
+    /// Lab-frame vector → lattice frame.
+    #[inline]
+    fn to_lattice(&self, v: Vec3) -> Vec3 {
+        if self.rotated {
+            Vec3::new(
+                self.cos_r * v.x + self.sin_r * v.y,
+                -self.sin_r * v.x + self.cos_r * v.y,
+                v.z,
+            )
+        } else {
+            v
+        }
+    }
+
+    /// The facet owning cell coordinates (x, y): the sector of the larger offset from the
+    /// centre, or the flat plane outside the base square (ties go to x, and to +).
+    #[inline]
+    fn facet_at(&self, x: f64, y: f64) -> u32 {
+        let (dx, dy) = (x - self.centre, y - self.centre);
+        if dx.abs().max(dy.abs()) >= self.half_base {
+            FLAT_FACET
+        } else if dx.abs() >= dy.abs() {
+            if dx >= 0.0 { 0 } else { 1 }
+        } else if dy >= 0.0 {
+            2
+        } else {
+            3
+        }
+    }
+
+    /// The below-surface set of one cell as a union of spans of t.
+    #[inline]
+    fn below_spans(&self, g: &[Gap; 5]) -> [Span; 2] {
+        let ground = g[4].below(FLAT_FACET);
+        if self.spec.inverted {
+            // z < min(0, max pit planes): below ground but not inside the pit cone
+            // (the cone is the set above all four pit planes).
+            let cone = g[0]
+                .above(0)
+                .and(g[1].above(1))
+                .and(g[2].above(2))
+                .and(g[3].above(3));
+            if cone.is_empty() {
+                return [ground, Span::EMPTY];
+            }
+            let first = Span {
+                start: ground.start,
+                end: ground.end.min(cone.start),
+                start_tag: ground.start_tag,
+                end_tag: if cone.start < ground.end {
+                    cone.start_tag
+                } else {
+                    ground.end_tag
+                },
+            };
+            let second = Span {
+                start: ground.start.max(cone.end),
+                end: ground.end,
+                start_tag: if cone.end > ground.start {
+                    cone.end_tag
+                } else {
+                    ground.start_tag
+                },
+                end_tag: ground.end_tag,
+            };
+            [first, second]
+        } else {
+            // z < max(0, min faces): below ground or inside the pyramid cone.
+            let cone = g[0]
+                .below(0)
+                .and(g[1].below(1))
+                .and(g[2].below(2))
+                .and(g[3].below(3));
+            [ground, cone]
+        }
+    }
+
+    /// Gaps of the ray to the five planes of cell (i, j), with the leaving facet pinned.
+    #[inline]
+    fn gaps(&self, o: Vec3, d: Vec3, i: i64, j: i64, skip: Option<u32>) -> [Gap; 5] {
+        let ol = Vec3::new(
+            o.x - i as f64 * self.period,
+            o.y - j as f64 * self.period,
+            o.z,
+        );
+        let mut g = self.planes.map(|p| Gap::new(&p, ol, d));
+        match skip {
+            Some(FLAT_FACET) => g[4] = g[4].on_plane(),
+            Some(k) if i == 0 && j == 0 => g[k as usize] = g[k as usize].on_plane(),
+            _ => {}
+        }
+        g
+    }
+}
+
+impl Texture for RegularPyramids {
+    fn period_um(&self) -> [f64; 2] {
+        [self.period; 2]
+    }
+
+    fn lattice_um(&self) -> [[f64; 2]; 2] {
+        let p = self.period;
+        [
+            [p * self.cos_r, p * self.sin_r],
+            [-p * self.sin_r, p * self.cos_r],
+        ]
+    }
+
+    fn z_range_um(&self) -> [f64; 2] {
+        if self.spec.inverted {
+            [-self.height, 0.0]
+        } else {
+            [0.0, self.height]
+        }
+    }
+
+    fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit> {
+        let o = self.to_lattice(origin);
+        let d = self.to_lattice(dir);
+        let [z_min, z_max] = self.z_range_um();
+        let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
+        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
+        let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+
+        // Side the ray starts on.
+        let side = side_outside_slab(o.z, z_lo, z_hi)
+            .or_else(|| {
+                let k = skip?;
+                Side::leaving(Gap::new(&self.planes[k as usize], Vec3::ZERO, d).e)
+            })
+            .unwrap_or_else(|| {
+                let (i, j) = (
+                    (o.x / self.period).floor() as i64,
+                    (o.y / self.period).floor() as i64,
+                );
+                side_at_origin(&self.below_spans(&self.gaps(o, d, i, j, skip)))
+            });
+
+        // Walk the lattice cells until the ray changes side.
+        let mut walk = GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY);
+        for cell in walk.by_ref() {
+            let g = self.gaps(o, d, cell.i, cell.j, skip);
+            let Some(entry) = cell_entry(&self.below_spans(&g), side, cell.t0, cell.t1) else {
+                continue;
+            };
+            // Hit point in the cell frame, snapped onto the facet plane.
+            let t = entry.t;
+            let (cx, cy) = (cell.i as f64 * self.period, cell.j as f64 * self.period);
+            let p = o + t * d;
+            let (x, ex) = clamp_into(p.x - cx, self.period);
+            let (y, ey) = clamp_into(p.y - cy, self.period);
+            let facet = entry.tag.unwrap_or_else(|| self.facet_at(x, y));
+            let plane = self.planes[facet as usize];
+            let z = plane.z_at(x, y);
+            let e = ray_point_err(o, d, t);
+            let (ex, ey) = (e.x + ex, e.y + ey);
+            let ez = plane.z_err(x, y) + plane.a.abs() * ex + plane.b.abs() * ey;
+            let (point, p_err) = if self.rotated {
+                let (c, s) = (self.cos_r, self.sin_r);
+                let point = Vec3::new(c * x - s * y, s * x + c * y, z);
+                let rot_err = gamma(3) * (x.abs() + y.abs());
+                let err = Vec3::new(
+                    c.abs() * ex + s.abs() * ey + rot_err,
+                    s.abs() * ex + c.abs() * ey + rot_err,
+                    ez,
+                );
+                (point, err)
+            } else {
+                (Vec3::new(x, y, z), Vec3::new(ex, ey, ez))
+            };
+            return Some(facet_hit(
+                t,
+                point,
+                p_err,
+                self.normals[facet as usize],
+                facet,
+            ));
+        }
+        None
+    }
+
+    fn symmetry(&self) -> Symmetry {
+        // C4v mirror lines of the lattice map onto the axes when the rotation is a multiple
+        // of 45°.
+        if (self.spec.rotation_deg / 45.0).fract() == 0.0 {
+            Symmetry::Square
+        } else {
+            Symmetry::None
+        }
+    }
+
+    fn describe(&self) -> String {
+        let s = &self.spec;
+        format!(
+            "regular {} pyramids: base {} µm, facet angle {:.4}°, {} {:.4} µm, period {} µm, \
+             rotation {}°",
+            if s.inverted { "inverted" } else { "upright" },
+            s.base_um,
+            s.base_angle_deg,
+            if s.inverted { "depth" } else { "height" },
+            self.height,
+            s.period_um,
+            s.rotation_deg
+        )
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn vertical_rays_land_on_the_height_function() {
+        for inverted in [false, true] {
+            let spec = RegularPyramidsSpec {
+                inverted,
+                period_um: 12.0,
+                ..RegularPyramidsSpec::upright(10.0)
+            };
+            let tex = RegularPyramids::new(spec).unwrap();
+            for k in 0..400 {
+                let (x, y) = (
+                    (k as f64 * 0.6180339) % 1.0 * 12.0,
+                    (k as f64 * 0.7548776) % 1.0 * 12.0,
+                );
+                let h = tex
+                    .intersect(Vec3::new(x, y, 20.0), Vec3::NEG_Z, None)
+                    .unwrap();
+                assert!(
+                    (h.point.z - tex.height_at(x, y)).abs() < 1e-12,
+                    "inverted {inverted} at ({x}, {y})"
+                );
+                let b = tex
+                    .intersect(Vec3::new(x, y, -20.0), Vec3::Z, None)
+                    .unwrap();
+                assert!((b.point.z - h.point.z).abs() < 1e-12);
+            }
+        }
+    }
+
+    #[test]
+    fn parameter_errors_name_the_key() {
+        let e = RegularPyramids::new(RegularPyramidsSpec {
+            period_um: 5.0,
+            ..RegularPyramidsSpec::upright(10.0)
+        })
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("period_um") && e.contains("base_um"), "{e}");
+        let e = RegularPyramids::new(RegularPyramidsSpec {
+            base_angle_deg: 90.0,
+            ..RegularPyramidsSpec::upright(10.0)
+        })
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("base_angle_deg"), "{e}");
+    }
+}

@@ -1,0 +1,525 @@
+//! The surface tracer: rays through one textured, coated interface between two half-spaces.
+//!
+//! Each ray starts just outside the texture's height range on its incidence side and is
+//! followed facet by facet until it leaves the slab upward or downward. At every facet event
+//! the coated interface's response at the local incidence angle (from `FacetResponse`) decides,
+//! for the ray's Stokes state, how much power the films absorb (booked per layer) and whether
+//! the ray reflects or refracts (probabilities ∝ the reflected and transmitted powers; the
+//! weight is renormalised to R + T, an unbiased "implicit absorption" estimator).
+//! Invariant: for every ray, reflected + transmitted + Σ film + abandoned = its initial weight.
+
+use super::polarisation::{self, Polarised};
+use super::response::{FacetResponse, FacetSample, Side, other};
+use super::tally::{HIT_BINS, Tally, polar_bin};
+use crate::geometry::robust::offset_origin;
+use crate::geometry::{FacetId, Vec3, orthonormal_basis};
+use crate::sampling::Stream;
+use crate::texture::{SurfaceKind, Texture};
+use rayon::prelude::*;
+
+/// Rays per work chunk: fixed, never derived from the thread count.
+pub const RAYS_PER_CHUNK: u64 = 4096;
+/// Facet events after which a ray is given up (its weight is booked as abandoned).
+pub const MAX_EVENTS: u32 = 10_000;
+
+/// How polarisation is treated at each facet event.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum PolarisationMode {
+    /// Full Stokes-vector tracking with the interface's Mueller matrices.
+    #[default]
+    Stokes,
+    /// Mean of s and p at each event (the common approximation; for comparison).
+    Unpolarised,
+}
+
+/// Polarisation of the incident light, relative to the macroscopic plane of incidence (the
+/// plane through the incident direction and the z axis; for normal incidence the x-z plane).
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+pub enum InputPolarisation {
+    #[default]
+    Unpolarised,
+    /// Electric field perpendicular to the plane of incidence.
+    S,
+    /// Electric field in the plane of incidence.
+    P,
+    /// Linear at an angle (radians) from the s direction towards p.
+    Linear(f64),
+}
+
+/// Where rays come from.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Incidence {
+    /// From the upper medium, travelling at polar angle `theta` (radians, from −z) and
+    /// azimuth `phi` (radians, of the propagation direction's horizontal component).
+    Above {
+        theta: f64,
+        phi: f64,
+        polarisation: InputPolarisation,
+    },
+    /// From the lower medium along `direction` (unit, z > 0), unpolarised.
+    BelowDirection { direction: Vec3 },
+    /// From the lower medium with isotropic radiance (cosine-weighted flux), unpolarised.
+    BelowIsotropic,
+}
+
+impl Incidence {
+    fn side(&self) -> Side {
+        match self {
+            Incidence::Above { .. } => Side::Above,
+            _ => Side::Below,
+        }
+    }
+}
+
+/// Receives every ray that leaves the surface (for redistribution matrices and the like).
+pub trait ExitObserver: Send + Default {
+    /// A ray leaves on `side` (the medium it ends in) with unit `dir` and power `weight`;
+    /// `start_dir` is the direction it arrived with.
+    fn exit(&mut self, start_dir: Vec3, side: Side, dir: Vec3, weight: f64);
+    /// Adds another observer's counts (called in chunk order).
+    fn merge(&mut self, other: Self);
+}
+
+/// Absorption in the thick media on either side of a surface, along each path segment
+/// inside the texture's height range (the texture's own volume belongs to the medium it is
+/// made of: light inside a silicon pyramid is absorbed there too).
+pub trait BulkSink {
+    /// A segment of `length` µm from `start` along `dir` in the medium on `side`, entered
+    /// with power `weight`; returns the power that survives it (Beer–Lambert) and books the
+    /// rest.
+    fn segment(&mut self, side: Side, start: Vec3, dir: Vec3, length: f64, weight: f64) -> f64;
+}
+
+/// Non-absorbing media on both sides (the surface tracer between half-spaces).
+pub struct Clear;
+
+impl BulkSink for Clear {
+    #[inline]
+    fn segment(&mut self, _: Side, _: Vec3, _: Vec3, _: f64, weight: f64) -> f64 {
+        weight
+    }
+}
+
+impl ExitObserver for () {
+    fn exit(&mut self, _: Vec3, _: Side, _: Vec3, _: f64) {}
+    fn merge(&mut self, _: Self) {}
+}
+
+/// One textured, coated interface between two half-spaces with real indices.
+///
+/// Indices of thick media are their real parts: absorption in thick layers is taken along the
+/// path by the wafer tracer, not at the interface (DESIGN §4).
+pub struct Surface<'a> {
+    pub texture: &'a dyn Texture,
+    pub response: &'a dyn FacetResponse,
+    pub n_above: f64,
+    pub n_below: f64,
+    pub polarisation: PolarisationMode,
+}
+
+/// A ray in flight.
+#[derive(Clone, Copy, Debug)]
+pub struct Ray {
+    pub origin: Vec3,
+    pub dir: Vec3,
+    pub pol: Polarised,
+    /// Facet just left, in the origin's cell frame.
+    pub skip: Option<FacetId>,
+}
+
+/// How a ray left the surface.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Outcome {
+    /// Left into the medium on `Side`; the ray holds the exit direction and weight.
+    Left(Side),
+    /// Given up: lost to numerics (`lost`) or stopped at the event limit or a facet with
+    /// R + T = 0. Its weight is booked as abandoned so the energy balance still closes.
+    Abandoned { lost: bool },
+}
+
+impl<'a> Surface<'a> {
+    fn index(&self, side: Side) -> f64 {
+        match side {
+            Side::Above => self.n_above,
+            Side::Below => self.n_below,
+        }
+    }
+
+    /// Follows `ray`, currently in the medium on `side`, until it leaves the texture slab;
+    /// a ray that leaves is moved onto the slab's boundary plane (z_max above, z_min below).
+    /// Film absorption is added to `film` (per layer), bulk absorption inside the slab goes
+    /// to `bulk`; returns the outcome and the number of facet events. Works in the texture's
+    /// unit-cell frame.
+    pub fn follow<B: BulkSink>(
+        &self,
+        ray: &mut Ray,
+        mut side: Side,
+        rng: &mut Stream,
+        film: &mut [f64],
+        sample: &mut FacetSample,
+        bulk: &mut B,
+    ) -> (Outcome, u32) {
+        let kind = self.texture.kind();
+        let n_layers = self.response.n_layers();
+        let [z_lo, z_hi] = self.texture.z_range_um();
+        let mut events = 0u32;
+        loop {
+            let Some(hit) = self.texture.intersect(ray.origin, ray.dir, ray.skip) else {
+                // Left the slab: must be travelling away from the surface on its own side.
+                let ok = match side {
+                    Side::Above => ray.dir.z > 0.0,
+                    Side::Below => ray.dir.z < 0.0,
+                };
+                if !ok {
+                    return (Outcome::Abandoned { lost: true }, events);
+                }
+                // Last segment inside the slab, to its boundary plane.
+                let z_end = if side == Side::Above { z_hi } else { z_lo };
+                let t = ((z_end - ray.origin.z) / ray.dir.z).max(0.0);
+                ray.pol.s = scaled(
+                    ray.pol.s,
+                    bulk.segment(side, ray.origin, ray.dir, t, ray.pol.s[0]),
+                );
+                ray.origin += ray.dir * t;
+                ray.origin.z = z_end;
+                return (Outcome::Left(side), events);
+            };
+            ray.pol.s = scaled(
+                ray.pol.s,
+                bulk.segment(side, ray.origin, ray.dir, hit.t, ray.pol.s[0]),
+            );
+            events += 1;
+            if events > MAX_EVENTS {
+                return (Outcome::Abandoned { lost: false }, events);
+            }
+            let k = ray.dir;
+            let n = hit.normal;
+            let k_dot_n = k.dot(n);
+            // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa;
+            // anything else is a numerical inconsistency.
+            let consistent = match side {
+                Side::Above => k_dot_n < 0.0,
+                Side::Below => k_dot_n > 0.0,
+            };
+            if !consistent {
+                return (Outcome::Abandoned { lost: true }, events);
+            }
+            let cos_i = k_dot_n.abs().min(1.0);
+            let cos_tilt = n.z;
+            let w = ray.pol.s[0];
+
+            // Facet response, film absorption and the reflect/refract choice
+            let (c_r, c_t, reflect) = match self.polarisation {
+                PolarisationMode::Unpolarised => {
+                    let (r, t) = if n_layers == 0 {
+                        let [rs, rp, ts, tp] = self.response.power(side, cos_i, cos_tilt);
+                        (0.5 * (rs + rp), 0.5 * (ts + tp))
+                    } else {
+                        self.response.sample(side, cos_i, cos_tilt, sample);
+                        for j in 0..n_layers {
+                            film[j] += w * 0.5 * (sample.a_s[j] + sample.a_p[j]);
+                        }
+                        (
+                            0.5 * (sample.r_s + sample.r_p),
+                            0.5 * (sample.t_s + sample.t_p),
+                        )
+                    };
+                    let total = r + t;
+                    let reflect = rng.uniform() * total < r;
+                    ray.pol.s = [w * total, 0.0, 0.0, 0.0];
+                    (r, t, reflect)
+                }
+                PolarisationMode::Stokes => {
+                    let s_hat = polarisation::s_axis(k, n, ray.pol.e1);
+                    let s = polarisation::rotate_into(ray.pol.s, ray.pol.e1, k, s_hat);
+                    if n_layers == 0 {
+                        // Cross terms still matter for Stokes tracking: take the full sample.
+                        self.response.sample(side, cos_i, cos_tilt, sample);
+                    } else {
+                        self.response.sample(side, cos_i, cos_tilt, sample);
+                        for j in 0..n_layers {
+                            film[j] += polarisation::power(&s, sample.a_s[j], sample.a_p[j]);
+                        }
+                    }
+                    let p_r = polarisation::power(&s, sample.r_s, sample.r_p);
+                    let p_t = polarisation::power(&s, sample.t_s, sample.t_p);
+                    let total = p_r + p_t;
+                    let reflect = rng.uniform() * total < p_r;
+                    let (out, p) = if reflect {
+                        (
+                            polarisation::apply(&s, sample.r_s, sample.r_p, sample.r_cross),
+                            p_r,
+                        )
+                    } else {
+                        (
+                            polarisation::apply(&s, sample.t_s, sample.t_p, sample.t_cross),
+                            p_t,
+                        )
+                    };
+                    let scale = if p > 0.0 { total / p } else { 0.0 };
+                    ray.pol.s = out.map(|v| v * scale);
+                    ray.pol.e1 = s_hat;
+                    (p_r, p_t, reflect)
+                }
+            };
+            if c_r + c_t <= 0.0 {
+                return (Outcome::Abandoned { lost: false }, events);
+            }
+
+            // New direction
+            let facing = if k_dot_n < 0.0 { n } else { -n };
+            let new_dir = if kind == SurfaceKind::IdealLambertian {
+                let d = lambert(rng);
+                let to_above = (side == Side::Above) == reflect;
+                ray.pol.s = [ray.pol.s[0], 0.0, 0.0, 0.0];
+                if to_above {
+                    d
+                } else {
+                    Vec3::new(d.x, d.y, -d.z)
+                }
+            } else if reflect {
+                k - 2.0 * k_dot_n * n
+            } else {
+                let eta = self.index(side) / self.index(other(side));
+                let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
+                let cos_t = (1.0 - sin2_t).max(0.0).sqrt();
+                (eta * k + (eta * cos_i - cos_t) * facing).normalize()
+            };
+            debug_assert!((new_dir.length() - 1.0).abs() < 1e-9);
+            if !reflect {
+                side = other(side);
+            }
+            // Keep the reference axis perpendicular to the new direction.
+            ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
+                .normalize_or(orthonormal_basis(new_dir).0);
+            ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
+            ray.dir = new_dir;
+            ray.skip = Some(hit.facet);
+        }
+    }
+
+    /// A random point in the unit cell just outside the texture's height range on `side`
+    /// (by 1e-6 of the feature size, so the first intersection is never at t = 0).
+    pub fn entry_point(&self, side: Side, rng: &mut Stream) -> Vec3 {
+        let [px, py] = self.texture.period_um();
+        let [z_lo, z_hi] = self.texture.z_range_um();
+        let margin = 1e-6 * (1.0 + px.max(py) + (z_hi - z_lo));
+        let z = match side {
+            Side::Above => z_hi + margin,
+            Side::Below => z_lo - margin,
+        };
+        Vec3::new(rng.uniform() * px, rng.uniform() * py, z)
+    }
+
+    /// Starts a ray for `incidence` at a random position in the unit cell.
+    pub fn launch(&self, incidence: &Incidence, rng: &mut Stream) -> Ray {
+        let unpolarised = |dir: Vec3| Polarised {
+            s: [1.0, 0.0, 0.0, 0.0],
+            e1: orthonormal_basis(dir).0,
+        };
+        match *incidence {
+            Incidence::Above {
+                theta,
+                phi,
+                polarisation,
+            } => {
+                let dir = Vec3::new(
+                    theta.sin() * phi.cos(),
+                    theta.sin() * phi.sin(),
+                    -theta.cos(),
+                );
+                // s axis: perpendicular to the plane through dir and z (x-z plane at normal).
+                let s_hat = if theta.sin().abs() < 1e-12 {
+                    Vec3::new(-phi.sin(), phi.cos(), 0.0)
+                } else {
+                    dir.cross(Vec3::Z).normalize()
+                };
+                let s = match polarisation {
+                    InputPolarisation::Unpolarised => [1.0, 0.0, 0.0, 0.0],
+                    InputPolarisation::S => [1.0, 1.0, 0.0, 0.0],
+                    InputPolarisation::P => [1.0, -1.0, 0.0, 0.0],
+                    InputPolarisation::Linear(a) => [1.0, (2.0 * a).cos(), -(2.0 * a).sin(), 0.0],
+                };
+                let origin = self.entry_point(Side::Above, rng);
+                Ray {
+                    origin,
+                    dir,
+                    pol: Polarised { s, e1: s_hat },
+                    skip: None,
+                }
+            }
+            Incidence::BelowDirection { direction } => {
+                let dir = direction.normalize();
+                let origin = self.entry_point(Side::Below, rng);
+                Ray {
+                    origin,
+                    dir,
+                    pol: unpolarised(dir),
+                    skip: None,
+                }
+            }
+            Incidence::BelowIsotropic => {
+                let origin = self.entry_point(Side::Below, rng);
+                let dir = lambert(rng);
+                Ray {
+                    origin,
+                    dir,
+                    pol: unpolarised(dir),
+                    skip: None,
+                }
+            }
+        }
+    }
+
+    /// Traces one chunk of rays into a tally (and an exit observer).
+    pub fn trace_chunk<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        rays: u64,
+        rng: &mut Stream,
+    ) -> (Tally, O) {
+        let mut tally = Tally::default();
+        let mut obs = O::default();
+        let n_layers = self.response.n_layers();
+        let mut film = [0.0; super::response::MAX_FILM_LAYERS];
+        let mut sample = FacetSample::default();
+        let side_in = incidence.side();
+        for _ in 0..rays {
+            let mut ray = self.launch(incidence, rng);
+            let start = ray.dir;
+            film[..n_layers].iter_mut().for_each(|a| *a = 0.0);
+            let (outcome, events) =
+                self.follow(&mut ray, side_in, rng, &mut film, &mut sample, &mut Clear);
+            tally.rays += 1;
+            tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
+            for j in 0..n_layers {
+                tally.film[j].add(film[j]);
+            }
+            let w = ray.pol.s[0];
+            let (mut r, mut t, mut a) = (0.0, 0.0, 0.0);
+            match outcome {
+                Outcome::Left(side) => {
+                    let bin = polar_bin(ray.dir.z.abs());
+                    if side == side_in {
+                        r = w;
+                        tally.reflected_polar[bin] += w;
+                    } else {
+                        t = w;
+                        tally.transmitted_polar[bin] += w;
+                        tally.transmitted_inv_cos += w / ray.dir.z.abs().max(1e-12);
+                    }
+                    obs.exit(start, side, ray.dir, w);
+                }
+                Outcome::Abandoned { lost } => {
+                    a = w;
+                    if lost {
+                        tally.lost_rays += 1;
+                    } else {
+                        tally.event_limited_rays += 1;
+                    }
+                }
+            }
+            tally.reflected.add(r);
+            tally.transmitted.add(t);
+            tally.abandoned.add(a);
+        }
+        (tally, obs)
+    }
+
+    /// Traces `n_rays` rays in parallel chunks seeded from (seed, job_key, chunk): the result
+    /// is bit-identical whatever the thread count.
+    pub fn trace<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        n_rays: u64,
+        seed: u64,
+        job_key: u64,
+    ) -> (Tally, O) {
+        self.trace_chunks(
+            incidence,
+            0,
+            n_rays.div_ceil(RAYS_PER_CHUNK),
+            n_rays,
+            seed,
+            job_key,
+        )
+    }
+
+    /// Chunks `first..last` of a job of `n_rays` in total (the last chunk may be short).
+    fn trace_chunks<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        first: u64,
+        last: u64,
+        n_rays: u64,
+        seed: u64,
+        job_key: u64,
+    ) -> (Tally, O) {
+        let parts: Vec<(Tally, O)> = (first..last)
+            .into_par_iter()
+            .map(|chunk| {
+                let mut rng = Stream::new(seed, job_key, chunk);
+                let rays = RAYS_PER_CHUNK.min(n_rays - chunk * RAYS_PER_CHUNK);
+                self.trace_chunk(incidence, rays, &mut rng)
+            })
+            .collect(); // indexed collect keeps chunk order
+        let mut tally = Tally::default();
+        let mut obs = O::default();
+        for (t, o) in parts {
+            tally.merge(&t);
+            obs.merge(o);
+        }
+        (tally, obs)
+    }
+
+    /// Traces until the standard error of reflectance and transmittance is at most
+    /// `target_se`, or `max_rays` are spent. Rounds of whole chunks are planned from the
+    /// results so far only, so the outcome is still independent of the thread count.
+    pub fn trace_to_precision<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        target_se: f64,
+        max_rays: u64,
+        seed: u64,
+        job_key: u64,
+    ) -> (Tally, O) {
+        let max_chunks = max_rays.div_ceil(RAYS_PER_CHUNK).max(1);
+        let budget = max_chunks * RAYS_PER_CHUNK;
+        let mut done = 0u64;
+        let mut next = 8u64.min(max_chunks);
+        let mut tally = Tally::default();
+        let mut obs = O::default();
+        loop {
+            let (t, o) = self.trace_chunks(incidence, done, next, budget, seed, job_key);
+            tally.merge(&t);
+            obs.merge(o);
+            done = next;
+            let se = tally
+                .reflectance()
+                .std_error
+                .max(tally.transmittance().std_error);
+            if se <= target_se || done >= max_chunks {
+                return (tally, obs);
+            }
+            // σ ∝ 1/√N: chunks needed for the target, plus 10 % headroom.
+            let need = (done as f64 * (se / target_se).powi(2) * 1.1).ceil() as u64;
+            next = need.clamp(done + 1, max_chunks);
+        }
+    }
+}
+
+/// `s` rescaled so that its intensity is `w`.
+#[inline]
+fn scaled(s: [f64; 4], w: f64) -> [f64; 4] {
+    if s[0] == w || s[0] == 0.0 {
+        return s;
+    }
+    let f = w / s[0];
+    s.map(|v| v * f)
+}
+
+/// Cosine-weighted direction around +z.
+#[inline]
+fn lambert(rng: &mut Stream) -> Vec3 {
+    rng.cosine_hemisphere()
+}
