@@ -409,3 +409,48 @@ fn too_many_bins_for_the_memory_budget_is_a_clear_error() {
     );
     assert_eq!(stack.memory_estimate_bytes(), 40 * 40 * 8 * (4 * 2 + 2 + 2));
 }
+
+#[test]
+fn metal_rear_absorbs_what_it_transmits() {
+    // Planar silicon on a made-up metal n = 1.5 + 8i below: the response from silicon gives
+    // R = 0.9 at every angle and T = 0.1 into the metal, also beyond the real-index critical
+    // angle (evanescent absorption). The energy balance closes with T = absorbed in the metal.
+    let bins = AngleBins::equal_etendue(10, 1, Symmetry::Isotropic).unwrap();
+    let wl = 1100.0;
+    let n = 3.5;
+    let mut s = setup(&bins, wl, ("si", n), ("metal", 1.5), 0);
+    s.below = MediumInfo::absorbing("metal", 1.5, 8.0);
+    let mut clear = s.clone();
+    clear.below.k = 0.0;
+    let constant = |_: f64, _: Side| InterfaceResponse::lossless(0.9, 0.1);
+    assert!(
+        InterfaceMatrices::planar(clear, constant).is_err(),
+        "T beyond the critical angle into a transparent medium is refused"
+    );
+    let rear = InterfaceMatrices::planar(s, constant).unwrap();
+    let stack = Stack::new(
+        wl,
+        vec![
+            medium("air", 1.0),
+            StackElement::Interface(Box::new(bare(&bins, wl, ("air", 1.0), ("si", n)))),
+            StackElement::Thick(ThickLayer {
+                id: "si".into(),
+                index: Complex64::new(n, 1e-5),
+                thickness_um: 160.0,
+            }),
+            StackElement::Interface(Box::new(rear)),
+            StackElement::Medium(SemiInfinite {
+                id: "metal".into(),
+                index: Complex64::new(1.5, 8.0),
+            }),
+        ],
+    )
+    .unwrap();
+    let mut inc = vec![0.0; bins.len()];
+    inc[0] = 1.0;
+    let res = stack.solve(&inc, &SolverOptions::default()).unwrap();
+    assert!(
+        res.transmittance > 0.1 && res.energy_residual < 1e-12,
+        "{res:?}"
+    );
+}

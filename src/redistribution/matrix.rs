@@ -53,16 +53,33 @@ pub enum Side {
 
 /// One semi-infinite (or thick) medium beside an interface: an id and the real index used
 /// for Snell's law and étendue (the real part of n + ik: absorption in thick layers is taken
-/// along the path, not in the interface response).
+/// along the path, not in the interface response). `k` matters only for a strongly absorbing
+/// semi-infinite medium (a metal): see [`InterfaceMatrices::planar`].
 #[derive(Clone, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct MediumInfo {
     pub id: String,
     pub n: f64,
+    /// Extinction coefficient k ≥ 0 (0 when absent from a file).
+    #[serde(default)]
+    pub k: f64,
 }
 
 impl MediumInfo {
+    /// A medium with real index `n` (k = 0).
     pub fn new(id: impl Into<String>, n: f64) -> Self {
-        MediumInfo { id: id.into(), n }
+        MediumInfo {
+            id: id.into(),
+            n,
+            k: 0.0,
+        }
+    }
+    /// An absorbing medium n + ik (e.g. the metal of a rear reflector).
+    pub fn absorbing(id: impl Into<String>, n: f64, k: f64) -> Self {
+        MediumInfo {
+            id: id.into(),
+            n,
+            k,
+        }
     }
 }
 
@@ -79,7 +96,7 @@ pub struct InterfaceSetup {
 
 impl InterfaceSetup {
     fn validate(&self) -> Result<(), MatrixError> {
-        let ok_n = |m: &MediumInfo| m.n.is_finite() && m.n > 0.0;
+        let ok_n = |m: &MediumInfo| m.n.is_finite() && m.n > 0.0 && m.k.is_finite() && m.k >= 0.0;
         if !(self.wavelength_nm.is_finite() && self.wavelength_nm > 0.0) {
             return Err(MatrixError::setup(
                 format!("wavelength {} nm", self.wavelength_nm),
@@ -90,8 +107,8 @@ impl InterfaceSetup {
         for m in [&self.above, &self.below] {
             if !ok_n(m) {
                 return Err(MatrixError::setup(
-                    format!("medium `{}` has index n = {}", m.id, m.n),
-                    "a finite real index n > 0",
+                    format!("medium `{}` has index n = {}, k = {}", m.id, m.n, m.k),
+                    "finite n > 0 and k ≥ 0",
                     "give the real part of the medium's index at this wavelength",
                 ));
             }
@@ -332,6 +349,11 @@ impl InterfaceMatrices {
     /// at grazing incidence and at the critical angle where R, T behave like √(end − s).
     /// The split makes the bin-to-bin transfer exact; the quadrature error for Fresnel
     /// responses is ≲ 1e-13 (test `planar_average_matches_fine_quadrature`).
+    ///
+    /// Beyond the critical angle of the real indices the response must give T = 0, unless
+    /// the medium entered absorbs (`k > 0`, e.g. a metal below a rear mirror): there the
+    /// transmitted power is absorbed within a wavelength and is booked into the most grazing
+    /// bin of that medium, so use this only for the semi-infinite medium below a stack.
     pub fn planar<F>(setup: InterfaceSetup, response: F) -> Result<Self, MatrixError>
     where
         F: Fn(f64, Side) -> InterfaceResponse,
@@ -507,6 +529,10 @@ where
     let (n, l, na) = (bins.len(), setup.film_layers.len(), bins.n_azimuth());
     let (n_i, n_t) = setup.indices(side);
     let ratio2 = (n_i / n_t).powi(2);
+    let entered_absorbs = match side {
+        Side::Above => setup.below.k > 0.0,
+        Side::Below => setup.above.k > 0.0,
+    };
     let mut m = SideMatrices::zeros(n, l);
     for p in 0..bins.n_polar() {
         let (s0, s1) = bins.sin2_range(p);
@@ -531,6 +557,9 @@ where
                 }
                 if s_t < 1.0 {
                     let q = bins.polar_index_sin2(s_t);
+                    m.transmission.add_at(q * na + az, j, t / ds);
+                } else if entered_absorbs {
+                    let q = bins.n_polar() - 1;
                     m.transmission.add_at(q * na + az, j, t / ds);
                 } else if t.abs() > 1e-12 * ds {
                     return Err(MatrixError::Response {
