@@ -2,13 +2,15 @@
 //!
 //! Convention: a ray with unit direction k carries a reference axis e₁ ⊥ k; with
 //! e₂ = k × e₁ the field is E = E₁e₁ + E₂e₂ and the Stokes vector is
-//! S₀ = |E₁|² + |E₂|², S₁ = |E₁|² − |E₂|², S₂ + iS₃ = 2E₁·conj(E₂).
+//! S₀ = |E₁|² + |E₂|², S₁ = |E₁|² − |E₂|², S₂ − iS₃ = 2E₁·conj(E₂) (the convention of
+//! `optics::polarisation`: S₃ = 2 Im(conj(E_s)·E_p), time dependence e^{−iωt}).
 //! At a facet the frame is rotated so that e₁ = ŝ; the interface then acts by a Jones
 //! matrix diag(a_s, a_p), i.e. the Mueller matrix
 //! ½[[|a_s|²+|a_p|², |a_s|²−|a_p|², 0, 0], [|a_s|²−|a_p|², |a_s|²+|a_p|², 0, 0],
-//!   [0, 0, 2X, −2Y], [0, 0, 2Y, 2X]] with X + iY = a_s·conj(a_p)
+//!   [0, 0, 2X, 2Y], [0, 0, −2Y, 2X]] with X + iY = a_s·conj(a_p), the same matrix as
+//! `optics::Mueller::from_amplitudes`
 //! (R. A. Chipman, W. S. T. Lam & G. Young, *Polarized Light and Optical Systems*,
-//! CRC Press 2018, ch. 6; the sign of the Y terms follows from the S₃ definition above).
+//! CRC Press 2018; the sign of the Y terms follows from the S₃ definition above).
 
 use crate::geometry::Vec3;
 
@@ -52,8 +54,8 @@ pub fn apply(s: &[f64; 4], c_s: f64, c_p: f64, (x, y): (f64, f64)) -> [f64; 4] {
     [
         sum * s[0] + dif * s[1],
         dif * s[0] + sum * s[1],
-        x * s[2] - y * s[3],
-        y * s[2] + x * s[3],
+        x * s[2] + y * s[3],
+        -y * s[2] + x * s[3],
     ]
 }
 
@@ -80,6 +82,31 @@ mod tests {
         let d = Vec3::new(1.0, 1.0, 0.0).normalize();
         let s = rotate_into([1.0, 1.0, 0.0, 0.0], Vec3::X, k, d);
         assert!(s[1].abs() < 1e-15 && (s[2] + 1.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn interface_action_equals_the_optics_mueller_matrix() {
+        // The tracer's specialised product must equal the general Mueller matrix built by
+        // `optics` from the same Jones amplitudes (independent implementation).
+        use crate::optics::{Mueller, Stokes};
+        use num_complex::Complex64;
+        let (a_s, a_p) = (Complex64::new(0.3, -0.4), Complex64::new(-0.2, 0.5));
+        let m = Mueller::from_amplitudes(a_s, a_p, 1.0);
+        let s = [1.0, 0.2, -0.5, 0.6];
+        let c = a_s * a_p.conj();
+        let ours = apply(&s, a_s.norm_sqr(), a_p.norm_sqr(), (c.re, c.im));
+        let theirs = (m * Stokes(s)).0;
+        for i in 0..4 {
+            assert!((ours[i] - theirs[i]).abs() < 1e-14, "{ours:?} vs {theirs:?}");
+        }
+        // And the frame rotation agrees with optics' rotation for the same geometry.
+        let k = Vec3::Z;
+        let to = Vec3::new(0.6, 0.8, 0.0);
+        let ours = rotate_into(s, Vec3::X, k, to);
+        let theirs = Stokes(s).in_frame([1.0, 0.0, 0.0], [0.6, 0.8, 0.0], [0.0, 0.0, 1.0]).0;
+        for i in 0..4 {
+            assert!((ours[i] - theirs[i]).abs() < 1e-14, "{ours:?} vs {theirs:?}");
+        }
     }
 
     #[test]

@@ -26,8 +26,8 @@ pub fn other(side: Side) -> Side {
 ///
 /// `r_cross` = r_s·conj(r_p) and `t_cross` = f·t_s·conj(t_p) (f the power factor turning
 /// |t|² into T), as (re, im); they fill the lower 2×2 block of the Mueller matrices
-/// ½[[R_s+R_p, R_s−R_p, 0, 0], [R_s−R_p, R_s+R_p, 0, 0], [0, 0, 2X, −2Y], [0, 0, 2Y, 2X]]
-/// for Stokes vectors with S₂ + iS₃ = 2·E_s·conj(E_p) (see `tracer::polarisation`).
+/// ½[[R_s+R_p, R_s−R_p, 0, 0], [R_s−R_p, R_s+R_p, 0, 0], [0, 0, 2X, 2Y], [0, 0, −2Y, 2X]]
+/// (see `tracer::polarisation` for the Stokes convention).
 #[derive(Clone, Copy, Debug, Default)]
 pub struct FacetSample {
     pub r_s: f64,

@@ -338,7 +338,7 @@ impl<'a> Surface<'a> {
                     InputPolarisation::Unpolarised => [1.0, 0.0, 0.0, 0.0],
                     InputPolarisation::S => [1.0, 1.0, 0.0, 0.0],
                     InputPolarisation::P => [1.0, -1.0, 0.0, 0.0],
-                    InputPolarisation::Linear(a) => [1.0, (2.0 * a).cos(), -(2.0 * a).sin(), 0.0],
+                    InputPolarisation::Linear(a) => [1.0, (2.0 * a).cos(), (2.0 * a).sin(), 0.0],
                 };
                 let origin = self.entry_point(Side::Above, rng);
                 Ray {
