@@ -62,3 +62,57 @@ fn limit_absorptances_match_reference_pointwise() {
         }
     }
 }
+
+/// J of the four references from lightfold's materials (si-green2008) and spectrum (AM1.5G)
+/// modules, on `grid` (nm).
+fn summary_on(grid: &[f64], w: f64) -> lightfold::wafer::limits::LimitSummary {
+    let si = lightfold::optics::materials::by_id("si-green2008").unwrap();
+    let (n, k): (Vec<f64>, Vec<f64>) = grid
+        .iter()
+        .map(|wl| {
+            let i = si.index_at(*wl).unwrap();
+            (i.re, i.im)
+        })
+        .unzip();
+    let spectrum = lightfold::spectrum::Spectrum::am15g();
+    lightfold::wafer::limits::limit_summary(spectrum, grid, &n, &k, w).unwrap()
+}
+
+#[test]
+fn lambertian_photocurrents_match_independent_quadrature() {
+    let r = reference();
+    let spectrum = lightfold::spectrum::Spectrum::am15g();
+    let native: Vec<f64> = spectrum
+        .wavelength_nm()
+        .iter()
+        .copied()
+        .filter(|wl| (300.0..=1200.0).contains(wl))
+        .collect();
+    let grid10: Vec<f64> = (0..=90).map(|i| 300.0 + 10.0 * i as f64).collect();
+    for rec in r["photocurrent"].as_array().unwrap() {
+        let w = rec["thickness_um"].as_f64().unwrap();
+        for (variant, grid) in [("native", &native), ("grid10", &grid10)] {
+            let s = summary_on(grid, w);
+            for (name, got) in [
+                ("tiedje_yablonovitch", s.tiedje_yablonovitch_ma_cm2),
+                ("lambertian_exact", s.lambertian_exact_ma_cm2),
+                ("single_pass", s.single_pass_ma_cm2),
+                ("double_pass", s.double_pass_ma_cm2),
+            ] {
+                let want = rec[format!("{name}_{variant}_ma_cm2")].as_f64().unwrap();
+                // Same quadrature on both sides (trapezoid on the G173 wavelengths): only
+                // round-off and the interpolation of n, k differ.
+                assert!(
+                    (got - want).abs() < 1e-6,
+                    "{name} {variant} W = {w}: {got} vs {want} mA/cm²"
+                );
+            }
+            // The exact Lambertian wafer sits below TY by 0.05–0.2 mA/cm² (module doc).
+            let gap = s.tiedje_yablonovitch_ma_cm2 - s.lambertian_exact_ma_cm2;
+            assert!(gap > 0.05 && gap < 0.2, "TY − exact = {gap} at W = {w}");
+        }
+    }
+    let s = summary_on(&grid10, 160.0);
+    assert!((s.max_to_gap_ma_cm2 - r["max_ma_cm2_300_1107"].as_f64().unwrap()).abs() < 1e-6);
+    assert!((s.max_band_ma_cm2 - r["max_ma_cm2_300_1200"].as_f64().unwrap()).abs() < 1e-6);
+}
