@@ -11,6 +11,10 @@
 
 use crate::redistribution::Matrix;
 
+/// Columns per panel of the blocked factorisation (a panel row block of U, 64 × n f64,
+/// stays in a 256 KB-class cache for n up to ~4000).
+const PANEL: usize = 64;
+
 /// A factorised square matrix P A = L U (unit lower L below the diagonal, U on and above).
 #[derive(Clone, Debug)]
 pub struct Lu {
@@ -31,6 +35,12 @@ pub struct Singular {
 impl Lu {
     /// Factorises `a` (consumed). Fails when the best pivot of a column is below
     /// 1e-14 · max|a|.
+    ///
+    /// Blocked right-looking form (Golub & Van Loan 2013, §3.4.9): panels of [`PANEL`]
+    /// columns are factorised with row pivoting applied across whole rows, then the block row
+    /// of U is solved and the trailing matrix updated in one sweep per panel, so the trailing
+    /// rows are streamed once per panel instead of once per column. Same arithmetic as the
+    /// unblocked algorithm up to the order of the additions.
     pub fn factor(a: Matrix) -> Result<Lu, Singular> {
         assert_eq!(
             a.rows(),
@@ -41,41 +51,72 @@ impl Lu {
         let floor = 1e-14 * a.max_abs();
         let mut lu = a.as_slice().to_vec();
         let mut perm: Vec<usize> = (0..n).collect();
-        for k in 0..n {
-            // Pivot search in column k.
-            let (mut p, mut best) = (k, lu[k * n + k].abs());
-            for i in k + 1..n {
-                let v = lu[i * n + k].abs();
-                if v > best {
-                    best = v;
-                    p = i;
+        let mut k0 = 0;
+        while k0 < n {
+            let k1 = (k0 + PANEL).min(n);
+            // Panel: columns k0..k1, rows k0..n.
+            for k in k0..k1 {
+                let (mut p, mut best) = (k, lu[k * n + k].abs());
+                for i in k + 1..n {
+                    let v = lu[i * n + k].abs();
+                    if v > best {
+                        best = v;
+                        p = i;
+                    }
                 }
-            }
-            if best <= floor || best.is_nan() {
-                return Err(Singular {
-                    column: k,
-                    pivot: best,
-                });
-            }
-            if p != k {
-                for j in 0..n {
-                    lu.swap(k * n + j, p * n + j);
+                if best <= floor || best.is_nan() {
+                    return Err(Singular {
+                        column: k,
+                        pivot: best,
+                    });
                 }
-                perm.swap(k, p);
-            }
-            // Eliminate below the pivot.
-            let (top, rest) = lu.split_at_mut((k + 1) * n);
-            let prow = &top[k * n..(k + 1) * n];
-            let inv = 1.0 / prow[k];
-            for row in rest.chunks_mut(n) {
-                let l = row[k] * inv;
-                row[k] = l;
-                if l != 0.0 {
-                    for (x, y) in row[k + 1..].iter_mut().zip(&prow[k + 1..]) {
-                        *x -= l * y;
+                if p != k {
+                    let (lo, hi) = lu.split_at_mut(p * n);
+                    lo[k * n..(k + 1) * n].swap_with_slice(&mut hi[..n]);
+                    perm.swap(k, p);
+                }
+                let (top, rest) = lu.split_at_mut((k + 1) * n);
+                let prow = &top[k * n + k..k * n + k1];
+                let inv = 1.0 / prow[0];
+                for row in rest.chunks_mut(n) {
+                    let l = row[k] * inv;
+                    row[k] = l;
+                    if l != 0.0 {
+                        for (x, y) in row[k + 1..k1].iter_mut().zip(&prow[1..]) {
+                            *x -= l * y;
+                        }
                     }
                 }
             }
+            if k1 < n {
+                // Block row of U: U12 = L11⁻¹ A12 (unit lower triangular, forward).
+                for k in k0..k1 {
+                    let (top, rest) = lu.split_at_mut((k + 1) * n);
+                    let urow = &top[k * n + k1..(k + 1) * n];
+                    for row in rest.chunks_mut(n).take(k1 - k - 1) {
+                        let l = row[k];
+                        if l != 0.0 {
+                            for (x, y) in row[k1..].iter_mut().zip(urow) {
+                                *x -= l * y;
+                            }
+                        }
+                    }
+                }
+                // Trailing update A22 −= L21 U12, one pass over the trailing rows.
+                let (top, rest) = lu.split_at_mut(k1 * n);
+                for row in rest.chunks_mut(n) {
+                    let (l21, a22) = row.split_at_mut(k1);
+                    for k in k0..k1 {
+                        let l = l21[k];
+                        if l != 0.0 {
+                            for (x, y) in a22.iter_mut().zip(&top[k * n + k1..(k + 1) * n]) {
+                                *x -= l * y;
+                            }
+                        }
+                    }
+                }
+            }
+            k0 = k1;
         }
         Ok(Lu { n, lu, perm })
     }
@@ -161,6 +202,28 @@ mod tests {
         assert!((xm.get(1, 0) + 2.0).abs() < 1e-14);
         let back = a.matmul(&xm);
         assert!((back.get(0, 1) - 1.0).abs() < 1e-14 && back.get(2, 1).abs() < 1e-14);
+    }
+
+    #[test]
+    fn blocked_factorisation_solves_a_large_system() {
+        // 150 × 150 (three panels): diagonally weighted pseudo-random matrix.
+        let n = 150;
+        let mut data = vec![0.0; n * n];
+        let mut x: u64 = 12345;
+        for (i, v) in data.iter_mut().enumerate() {
+            x = crate::sampling::splitmix64(x);
+            *v = (x >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+                + if i % (n + 1) == 0 { 3.0 } else { 0.0 };
+        }
+        let a = Matrix::from_row_major(n, n, data).unwrap();
+        let x_true: Vec<f64> = (0..n).map(|i| (i as f64 * 0.37).sin()).collect();
+        let b = a.mul_vec(&x_true);
+        let x = Lu::factor(a).unwrap().solve(&b);
+        let err = x
+            .iter()
+            .zip(&x_true)
+            .fold(0.0f64, |m, (u, v)| m.max((u - v).abs()));
+        assert!(err < 1e-12, "max error {err:e}");
     }
 
     #[test]

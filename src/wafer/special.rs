@@ -144,6 +144,9 @@ fn bin_average(tau: f64, mu_lo: f64, mu_hi: f64, kernel: Kernel) -> f64 {
         f64::INFINITY
     };
     let panels = (spread / 2.0).ceil().clamp(1.0, 256.0) as usize;
+    // Normalise with (μ_hi − μ_lo)(μ_hi + μ_lo), the exact integral of the weight 2μ over
+    // the same end points as the nodes: μ_hi² − μ_lo² would lose ~1e-16/Δs relative.
+    let ds = (mu_hi - mu_lo) * (mu_hi + mu_lo);
     let h = (mu_hi - mu_lo) / panels as f64;
     let mut sum = 0.0;
     for k in 0..panels {

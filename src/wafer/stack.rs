@@ -350,7 +350,9 @@ impl Stack {
     }
 
     /// Chooses which thick layer is the wafer (for `escape` and `reflectance_front`); the
-    /// default is the first absorbing thick layer (else the first).
+    /// default is the first absorbing thick layer (else the first). A slightly absorbing
+    /// cover (glass, encapsulant) above the wafer counts as absorbing: set the wafer
+    /// explicitly for such stacks.
     pub fn with_wafer_layer(mut self, layer: usize) -> Result<Self, WaferError> {
         if layer >= self.layers.len() {
             return Err(WaferError::Stack {
