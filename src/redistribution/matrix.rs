@@ -374,6 +374,64 @@ impl InterfaceMatrices {
         )
     }
 
+    /// Specular planar interface coated with a coherent thin-film stack: [`Self::planar`]
+    /// with the unpolarised response of `films` from each side (transfer-matrix method,
+    /// [`crate::thinfilm`]); absorptance rows are the film layers top to bottom.
+    /// `films.above()` and `films.below()` must have the real indices of the setup's media
+    /// (thick media enter the film calculation with their real part; their absorption is
+    /// taken along the path) — except a metal below, given with its k in both.
+    pub fn planar_film(
+        setup: InterfaceSetup,
+        films: &crate::thinfilm::FilmStack,
+    ) -> Result<Self, MatrixError> {
+        let (a, b) = (films.above(), films.below());
+        let same = |m: &MediumInfo, n: crate::optics::Index| {
+            (m.n - n.re).abs() <= 1e-9 * m.n && (m.k - n.im).abs() <= 1e-9 * m.k.max(1.0)
+        };
+        if !same(&setup.above, a)
+            || !same(&setup.below, b)
+            || films.n_layers() != setup.film_layers.len()
+        {
+            return Err(MatrixError::setup(
+                format!(
+                    "film stack {} + {}i | {} layer(s) | {} + {}i against media {} ({}), {} ({}) with {} film layer name(s)",
+                    a.re,
+                    a.im,
+                    films.n_layers(),
+                    b.re,
+                    b.im,
+                    setup.above.id,
+                    setup.above.n,
+                    setup.below.id,
+                    setup.below.n,
+                    setup.film_layers.len()
+                ),
+                "the film stack's half-spaces equal to the setup's media (n, k) and one name per film layer",
+                "build the FilmStack with the real parts of the thick media's indices and name every layer",
+            ));
+        }
+        let wl = setup.wavelength_nm;
+        let from_below = films.reversed();
+        Self::planar(setup, move |c, side| {
+            let (stack, flip) = match side {
+                Side::Above => (films, false),
+                Side::Below => (&from_below, true),
+            };
+            let r = stack.solve(wl, c);
+            let mut absorptance: Vec<f64> = (0..stack.n_layers())
+                .map(|l| r.absorptance_unpolarised(l))
+                .collect();
+            if flip {
+                absorptance.reverse();
+            }
+            InterfaceResponse {
+                reflectance: r.reflectance_unpolarised(),
+                transmittance: r.transmittance_unpolarised(),
+                absorptance,
+            }
+        })
+    }
+
     /// Ideal Lambertian interface from a response closure: the power of incoming bin j is
     /// split into R, T and A by the response averaged over bin j (as in [`Self::planar`]),
     /// and R and T are each spread over all outgoing bins of their hemisphere in proportion
@@ -666,6 +724,38 @@ mod tests {
             "{:?}",
             m.audit
         );
+    }
+
+    #[test]
+    fn quarter_wave_coating_cancels_reflection_in_the_normal_bin() {
+        // n_c = √(n_0 n_s) = 2 on n_s = 4, 75 nm at 600 nm (H. A. Macleod, *Thin-Film Optical
+        // Filters*, 4th ed., CRC Press 2010): R = 0 at normal incidence. Normal bin 1e-12 wide.
+        use crate::thinfilm::{FilmStack, Layer};
+        use num_complex::Complex64;
+        let bins =
+            AngleBins::from_sin2_edges(&[0.0, 1e-12, 0.5, 1.0], 1, Symmetry::Isotropic).unwrap();
+        let films = FilmStack::new(
+            Complex64::new(1.0, 0.0),
+            vec![Layer::new(Complex64::new(2.0, 0.0), 75.0)],
+            Complex64::new(4.0, 0.0),
+        )
+        .unwrap();
+        let mut s = setup(bins, 1.0, 4.0);
+        s.wavelength_nm = 600.0;
+        s.film_layers = vec!["coating".into()];
+        let m = InterfaceMatrices::planar_film(s.clone(), &films).unwrap();
+        assert!(
+            m.from_above.reflection.get(0, 0) < 1e-12,
+            "{}",
+            m.from_above.reflection.get(0, 0)
+        );
+        assert!(
+            m.audit.energy_max_abs < 1e-12 && m.audit.reciprocity_max_abs.unwrap() < 1e-10,
+            "{:?}",
+            m.audit
+        );
+        s.below.n = 3.9;
+        assert!(InterfaceMatrices::planar_film(s, &films).is_err());
     }
 
     #[test]
