@@ -24,6 +24,8 @@ enum Command {
     Materials(cli::materials::MaterialsArgs),
     /// Trace one textured, coated interface: R, T, film absorptance, light-path obliqueness.
     Surface(cli::surface::SurfaceArgs),
+    /// Lambertian (4n²) limit, exact Lambertian, single and double pass references for a wafer.
+    Limit(cli::limit::LimitArgs),
 }
 
 fn main() -> ExitCode {
@@ -32,6 +34,7 @@ fn main() -> ExitCode {
         Command::Film(args) => cli::film::run(args),
         Command::Materials(args) => cli::materials::run(args),
         Command::Surface(args) => cli::surface::run(args),
+        Command::Limit(args) => cli::limit::run(args),
     };
     match outcome {
         Ok(()) => ExitCode::SUCCESS,
