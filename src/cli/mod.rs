@@ -3,6 +3,8 @@
 pub mod film;
 pub mod limit;
 pub mod materials;
+pub mod progress;
+pub mod surface;
 
 /// Why a command failed, mapped to the process exit code.
 #[derive(Debug, thiserror::Error)]
