@@ -148,7 +148,7 @@ impl Matrix {
         }
         out
     }
-    /// self ← self · diag(d) (scales column j by d[j]).
+    /// self ← self · diag(d) (scales column j by `d[j]`).
     pub fn scale_columns(&mut self, d: &[f64]) {
         debug_assert_eq!(d.len(), self.cols);
         for row in self.data.chunks_mut(self.cols.max(1)) {
@@ -157,7 +157,7 @@ impl Matrix {
             }
         }
     }
-    /// self ← diag(d) · self (scales row i by d[i]).
+    /// self ← diag(d) · self (scales row i by `d[i]`).
     pub fn scale_rows(&mut self, d: &[f64]) {
         debug_assert_eq!(d.len(), self.rows);
         for (row, s) in self.data.chunks_mut(self.cols.max(1)).zip(d) {

@@ -36,7 +36,7 @@ impl Lu {
     /// Factorises `a` (consumed). Fails when the best pivot of a column is below
     /// 1e-14 · max|a|.
     ///
-    /// Blocked right-looking form (Golub & Van Loan 2013, §3.4.9): panels of [`PANEL`]
+    /// Blocked right-looking form (Golub & Van Loan 2013, §3.4.9): panels of `PANEL` (64)
     /// columns are factorised with row pivoting applied across whole rows, then the block row
     /// of U is solved and the trailing matrix updated in one sweep per panel, so the trailing
     /// rows are streamed once per panel instead of once per column. Same arithmetic as the

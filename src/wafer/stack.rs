@@ -43,7 +43,7 @@
 //! # Outputs and accounting
 //!
 //! R = Σ [R_a(0) I + T_b(0) P_1 U_1]; thick layer l absorbs Σ_i (1 − P_{l,i})(D_{l,i} + U_{l,i});
-//! film layer m of interface k absorbs A_a(k)[m]·(P_k D_k) + A_b(k)[m]·(P_{k+1} U_{k+1});
+//! film layer m of interface k absorbs `A_a(k)[m]·(P_k D_k) + A_b(k)[m]·(P_{k+1} U_{k+1})`;
 //! T = Σ T_a(K−1) P_{K−1} D_{K−1}. Column defects of the matrices (1 − column sum, e.g. Monte
 //! Carlo rays lost to numerics) are summed into `unaccounted`, so that
 //! R + ΣA + T + unaccounted = 1 holds to round-off (`energy_residual`; tests hold it below
