@@ -22,6 +22,10 @@ enum Command {
     Film(cli::film::FilmArgs),
     /// List the material library or show one material's n, k and α.
     Materials(cli::materials::MaterialsArgs),
+    /// Trace one textured, coated interface: R, T, film absorptance, light-path obliqueness.
+    Surface(cli::surface::SurfaceArgs),
+    /// Lambertian (4n²) limit, exact Lambertian, single and double pass references for a wafer.
+    Limit(cli::limit::LimitArgs),
 }
 
 fn main() -> ExitCode {
@@ -29,6 +33,8 @@ fn main() -> ExitCode {
     let outcome = match cli.command {
         Command::Film(args) => cli::film::run(args),
         Command::Materials(args) => cli::materials::run(args),
+        Command::Surface(args) => cli::surface::run(args),
+        Command::Limit(args) => cli::limit::run(args),
     };
     match outcome {
         Ok(()) => ExitCode::SUCCESS,

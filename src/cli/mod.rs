@@ -1,7 +1,10 @@
 //! Subcommands of the binary. Each file parses its arguments, calls the library and prints.
 
 pub mod film;
+pub mod limit;
 pub mod materials;
+pub mod progress;
+pub mod surface;
 
 /// Why a command failed, mapped to the process exit code.
 #[derive(Debug, thiserror::Error)]

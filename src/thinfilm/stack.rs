@@ -329,7 +329,8 @@ impl FilmStack {
                 let delta = k0 * self.layers[m - 1].thickness_nm * q;
                 let i_delta = Complex64::new(-delta.im, delta.re);
                 med.e1 = i_delta.exp();
-                med.e2 = (i_delta * 2.0).exp();
+                // Squaring costs one rounding (relative 2⁻⁵²) and saves a complex exp.
+                med.e2 = med.e1 * med.e1;
             }
         }
     }

@@ -22,8 +22,8 @@
 //! plasmon behind a thin oxide, get fine sampling where they are and nowhere else). On every
 //! sub-cell each channel is the cubic through four equally spaced samples (Lagrange), stored
 //! as monomial coefficients in the local coordinate t ∈ [0, 1]. A lookup is: one square
-//! root, one division, two table indexings, and Horner's rule, without data-dependent
-//! branches.
+//! root, one division, two table indexings, and Horner's rule, with at most one
+//! (well-predicted) branch.
 //!
 //! # Accuracy, measured
 //!
@@ -115,7 +115,6 @@ impl FullSample {
 #[derive(Debug, Clone, Copy)]
 struct Coarse {
     start: u32,
-    n_sub: u32,
     n_sub_f: f64,
 }
 
@@ -319,7 +318,6 @@ impl AngleTable {
                 self.max_error = self.max_error.max(err);
                 self.coarse.push(Coarse {
                     start: self.fast.len() as u32,
-                    n_sub: n_sub as u32,
                     n_sub_f: n_sub as f64,
                 });
                 for cell_coeffs in coeffs.chunks_exact(n_ch) {
@@ -343,24 +341,31 @@ impl AngleTable {
     }
 
     /// Sub-cell and local coordinate t ∈ [0, 1] of an incidence cosine.
+    ///
+    /// Branch-light: both segment variables are written as computed and one is picked with
+    /// a bit mask (the compiler may still emit one well-predicted branch around the
+    /// division); indices are clamped as floats first, so no NaN or out-of-range value
+    /// reaches an index, and the clamped truncation needs no saturation code.
     #[inline(always)]
+    #[allow(clippy::manual_clamp)] // min/max map NaN into range; `clamp` would keep NaN
     fn locate(&self, cos_theta_i: f64) -> (usize, f64) {
+        const M: f64 = COARSE_CELLS as f64;
         let c = cos_theta_i.clamp(0.0, 1.0);
         let d = c * c - self.cos_crit_sq;
         let s = d.abs().sqrt();
-        let in_tir = d < 0.0;
-        // Both candidates are computed; the selects below compile to conditional moves.
-        let x_tir = c / (self.cos_crit + s);
+        let x_tir = c / (self.cos_crit + s).max(f64::MIN_POSITIVE);
         let x_prop = s * self.inv_span;
-        let x = if in_tir { x_tir } else { x_prop };
-        let base = if in_tir { 0 } else { self.n_tir };
-        let g = x * COARSE_CELLS as f64;
-        let i = (g as usize).min(COARSE_CELLS - 1); // `as` saturates: NaN → 0
-        let frac = g - i as f64;
-        let cell = self.coarse[base + i];
-        let h = frac * cell.n_sub_f;
-        let j = (h as u32).min(cell.n_sub - 1);
-        (cell.start as usize + j as usize, h - j as f64)
+        let mask = u64::from(d < 0.0).wrapping_neg(); // all ones inside total reflection
+        let x = f64::from_bits((x_tir.to_bits() & mask) | (x_prop.to_bits() & !mask));
+        let base = self.n_tir & !(mask as usize);
+        // Truncation of the clamped, non-negative values is their floor (and, unlike
+        // `f64::floor` on baseline x86-64, a single instruction).
+        let g = x * M;
+        let i = g.min(M - 1.0).max(0.0) as u32;
+        let cell = self.coarse[base + i as usize];
+        let h = (g - f64::from(i)) * cell.n_sub_f;
+        let j = h.min(cell.n_sub_f - 1.0).max(0.0) as u32;
+        (cell.start as usize + j as usize, h - f64::from(j))
     }
 
     /// R_s, R_p, T_s, T_p at incidence cosine `cos_theta_i` ∈ [0, 1] (clamped), within

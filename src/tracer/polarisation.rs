@@ -97,15 +97,23 @@ mod tests {
         let ours = apply(&s, a_s.norm_sqr(), a_p.norm_sqr(), (c.re, c.im));
         let theirs = (m * Stokes(s)).0;
         for i in 0..4 {
-            assert!((ours[i] - theirs[i]).abs() < 1e-14, "{ours:?} vs {theirs:?}");
+            assert!(
+                (ours[i] - theirs[i]).abs() < 1e-14,
+                "{ours:?} vs {theirs:?}"
+            );
         }
         // And the frame rotation agrees with optics' rotation for the same geometry.
         let k = Vec3::Z;
         let to = Vec3::new(0.6, 0.8, 0.0);
         let ours = rotate_into(s, Vec3::X, k, to);
-        let theirs = Stokes(s).in_frame([1.0, 0.0, 0.0], [0.6, 0.8, 0.0], [0.0, 0.0, 1.0]).0;
+        let theirs = Stokes(s)
+            .in_frame([1.0, 0.0, 0.0], [0.6, 0.8, 0.0], [0.0, 0.0, 1.0])
+            .0;
         for i in 0..4 {
-            assert!((ours[i] - theirs[i]).abs() < 1e-14, "{ours:?} vs {theirs:?}");
+            assert!(
+                (ours[i] - theirs[i]).abs() < 1e-14,
+                "{ours:?} vs {theirs:?}"
+            );
         }
     }
 

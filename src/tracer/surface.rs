@@ -216,8 +216,9 @@ impl<'a> Surface<'a> {
                         (0.5 * (rs + rp), 0.5 * (ts + tp))
                     } else {
                         self.response.sample(side, cos_i, cos_tilt, sample);
-                        for j in 0..n_layers {
-                            film[j] += w * 0.5 * (sample.a_s[j] + sample.a_p[j]);
+                        let pairs = sample.a_s.iter().zip(&sample.a_p);
+                        for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
+                            *f += w * 0.5 * (a_s + a_p);
                         }
                         (
                             0.5 * (sample.r_s + sample.r_p),
@@ -232,14 +233,11 @@ impl<'a> Surface<'a> {
                 PolarisationMode::Stokes => {
                     let s_hat = polarisation::s_axis(k, n, ray.pol.e1);
                     let s = polarisation::rotate_into(ray.pol.s, ray.pol.e1, k, s_hat);
-                    if n_layers == 0 {
-                        // Cross terms still matter for Stokes tracking: take the full sample.
-                        self.response.sample(side, cos_i, cos_tilt, sample);
-                    } else {
-                        self.response.sample(side, cos_i, cos_tilt, sample);
-                        for j in 0..n_layers {
-                            film[j] += polarisation::power(&s, sample.a_s[j], sample.a_p[j]);
-                        }
+                    // The full sample even for bare facets: Stokes tracking needs the cross terms.
+                    self.response.sample(side, cos_i, cos_tilt, sample);
+                    let pairs = sample.a_s.iter().zip(&sample.a_p);
+                    for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
+                        *f += polarisation::power(&s, *a_s, *a_p);
                     }
                     let p_r = polarisation::power(&s, sample.r_s, sample.r_p);
                     let p_t = polarisation::power(&s, sample.t_s, sample.t_p);
@@ -289,9 +287,12 @@ impl<'a> Surface<'a> {
             if !reflect {
                 side = other(side);
             }
-            // Keep the reference axis perpendicular to the new direction.
-            ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
-                .normalize_or(orthonormal_basis(new_dir).0);
+            // Keep the reference axis perpendicular to the new direction (Stokes only: an
+            // unpolarised ray needs none).
+            if self.polarisation == PolarisationMode::Stokes {
+                ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
+                    .normalize_or(orthonormal_basis(new_dir).0);
+            }
             ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
             ray.dir = new_dir;
             ray.skip = Some(hit.facet);
@@ -392,8 +393,8 @@ impl<'a> Surface<'a> {
                 self.follow(&mut ray, side_in, rng, &mut film, &mut sample, &mut Clear);
             tally.rays += 1;
             tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
-            for j in 0..n_layers {
-                tally.film[j].add(film[j]);
+            for (m, f) in tally.film.iter_mut().zip(&film[..n_layers]) {
+                m.add(*f);
             }
             let w = ray.pol.s[0];
             let (mut r, mut t, mut a) = (0.0, 0.0, 0.0);

@@ -418,8 +418,9 @@ impl<'a> WaferModel<'a> {
                 m.add(*b);
             }
             for (i, f) in film.iter().enumerate() {
-                for l in 0..self.interfaces[i].response.n_layers() {
-                    tally.films[i][l].add(f[l]);
+                let n = self.interfaces[i].response.n_layers();
+                for (m, a) in tally.films[i].iter_mut().zip(&f[..n]) {
+                    m.add(*a);
                 }
             }
         }

@@ -1,0 +1,130 @@
+//! Matrix build (analytic planar interface) and stack solve per wavelength, in bins/s.
+//! Run: `cargo bench --bench matrix`. Seeded inputs only, no I/O in the loops.
+
+use criterion::{BenchmarkId, Criterion, Throughput, black_box, criterion_group, criterion_main};
+use lightfold::redistribution::{
+    AngleBins, InterfaceMatrices, InterfaceResponse, InterfaceSetup, MediumInfo, Side,
+};
+use lightfold::texture::Symmetry;
+use lightfold::wafer::{SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer};
+use num_complex::Complex64;
+
+/// Unpolarised Fresnel reflectance between real indices (Born & Wolf, 7th ed., §1.5.2).
+fn fresnel(cos_i: f64, n_i: f64, n_t: f64) -> f64 {
+    let s_t2 = (n_i / n_t).powi(2) * (1.0 - cos_i * cos_i);
+    if s_t2 >= 1.0 {
+        return 1.0;
+    }
+    let cos_t = (1.0 - s_t2).sqrt();
+    let rs = (n_i * cos_i - n_t * cos_t) / (n_i * cos_i + n_t * cos_t);
+    let rp = (n_t * cos_i - n_i * cos_t) / (n_t * cos_i + n_i * cos_t);
+    0.5 * (rs * rs + rp * rp)
+}
+
+fn bins(np: usize, na: usize) -> AngleBins {
+    let sym = if na == 1 {
+        Symmetry::Isotropic
+    } else {
+        Symmetry::Square
+    };
+    AngleBins::equal_etendue(np, na, sym).unwrap()
+}
+
+fn setup(b: &AngleBins, na: f64, nb: f64) -> InterfaceSetup {
+    InterfaceSetup {
+        bins: b.clone(),
+        wavelength_nm: 1000.0,
+        above: MediumInfo::new("a", na),
+        below: MediumInfo::new("b", nb),
+        film_layers: vec![],
+    }
+}
+
+fn planar(b: &AngleBins, na: f64, nb: f64) -> InterfaceMatrices {
+    InterfaceMatrices::planar(setup(b, na, nb), move |c, side| {
+        let (ni, nt) = if side == Side::Above {
+            (na, nb)
+        } else {
+            (nb, na)
+        };
+        let r = fresnel(c, ni, nt);
+        InterfaceResponse::lossless(r, 1.0 - r)
+    })
+    .unwrap()
+}
+
+/// Dense front (ideal Lambertian with Fresnel split) over 160 µm silicon and a planar rear
+/// into air: the dense case a textured front produces.
+fn stack(b: &AngleBins) -> Stack {
+    let n = 3.6;
+    let front = InterfaceMatrices::lambertian(setup(b, 1.0, n), move |c, side| {
+        let (ni, nt) = if side == Side::Above {
+            (1.0, n)
+        } else {
+            (n, 1.0)
+        };
+        let r = fresnel(c, ni, nt);
+        InterfaceResponse::lossless(r, 1.0 - r)
+    })
+    .unwrap();
+    let medium = |id: &str| {
+        StackElement::Medium(SemiInfinite {
+            id: id.into(),
+            index: Complex64::new(1.0, 0.0),
+        })
+    };
+    Stack::new(
+        1000.0,
+        vec![
+            medium("air"),
+            StackElement::Interface(Box::new(front)),
+            StackElement::Thick(ThickLayer {
+                id: "si".into(),
+                index: Complex64::new(n, 1e-4),
+                thickness_um: 160.0,
+            }),
+            StackElement::Interface(Box::new(planar(b, n, 1.0))),
+            medium("air"),
+        ],
+    )
+    .unwrap()
+}
+
+fn matrix(c: &mut Criterion) {
+    let mut g = c.benchmark_group("matrix_build_planar");
+    for (np, na) in [(30, 1), (50, 8), (100, 24)] {
+        let b = bins(np, na);
+        g.throughput(Throughput::Elements(b.len() as u64));
+        g.bench_with_input(
+            BenchmarkId::from_parameter(format!("{np}x{na}")),
+            &b,
+            |bch, b| bch.iter(|| planar(black_box(b), 1.0, 3.6)),
+        );
+    }
+    g.finish();
+
+    let mut g = c.benchmark_group("stack_solve");
+    g.sample_size(10);
+    for (np, na) in [(30, 1), (50, 8), (100, 24)] {
+        let b = bins(np, na);
+        let s = stack(&b);
+        eprintln!(
+            "stack_solve {np}x{na}: {} bins, dense matrices ≈ {:.1} MB",
+            b.len(),
+            s.memory_estimate_bytes() as f64 / 1e6
+        );
+        let inc: Vec<f64> = (0..b.len())
+            .map(|i| if i < na { 1.0 } else { 0.0 })
+            .collect();
+        g.throughput(Throughput::Elements(b.len() as u64));
+        g.bench_with_input(
+            BenchmarkId::from_parameter(format!("{np}x{na}")),
+            &s,
+            |bch, s| bch.iter(|| s.solve(black_box(&inc), &SolverOptions::default()).unwrap()),
+        );
+    }
+    g.finish();
+}
+
+criterion_group!(benches, matrix);
+criterion_main!(benches);
