@@ -18,6 +18,8 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Validate a scenario file: summary of the stack, or every problem (exit code 1).
+    Check(cli::check::CheckArgs),
     /// Coating calculator: R, T and absorptance per layer of a thin-film stack.
     Film(cli::film::FilmArgs),
     /// List the material library or show one material's n, k and α.
@@ -31,6 +33,7 @@ enum Command {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match cli.command {
+        Command::Check(args) => cli::check::run(args),
         Command::Film(args) => cli::film::run(args),
         Command::Materials(args) => cli::materials::run(args),
         Command::Surface(args) => cli::surface::run(args),

@@ -1,5 +1,6 @@
 //! Subcommands of the binary. Each file parses its arguments, calls the library and prints.
 
+pub mod check;
 pub mod film;
 pub mod limit;
 pub mod materials;

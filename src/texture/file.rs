@@ -278,7 +278,7 @@ pub fn line_col(text: &str, pos: usize) -> (usize, usize) {
 }
 
 /// Levenshtein edit distance (V. I. Levenshtein, Sov. Phys. Dokl. 10, 707 (1966)).
-fn edit_distance(a: &str, b: &str) -> usize {
+pub fn edit_distance(a: &str, b: &str) -> usize {
     let b: Vec<char> = b.chars().collect();
     let mut row: Vec<usize> = (0..=b.len()).collect();
     for (i, ca) in a.chars().enumerate() {
@@ -293,8 +293,9 @@ fn edit_distance(a: &str, b: &str) -> usize {
     row[b.len()]
 }
 
-/// The closest of `options` to `word`, if close enough to be a plausible misspelling.
-fn did_you_mean<'a>(word: &str, options: &[&'a str]) -> Option<&'a str> {
+/// The closest of `options` to `word`, if close enough to be a plausible misspelling
+/// (at most max(2, len/3) edits from it). Shared by the scenario loader.
+pub fn did_you_mean<'a>(word: &str, options: &[&'a str]) -> Option<&'a str> {
     options
         .iter()
         .map(|o| (edit_distance(word, o), *o))
@@ -303,7 +304,8 @@ fn did_you_mean<'a>(word: &str, options: &[&'a str]) -> Option<&'a str> {
         .map(|(_, o)| o)
 }
 
-const KINDS: &[&str] = &[
+/// The texture kinds a table may name.
+pub const KINDS: &[&str] = &[
     "planar",
     "ideal-specular",
     "ideal-lambertian",
@@ -313,8 +315,8 @@ const KINDS: &[&str] = &[
     "height-map",
 ];
 
-/// Keys accepted by each kind (besides `kind` and `description`).
-fn keys_of(kind: &str) -> &'static [&'static str] {
+/// Keys accepted by each kind (besides `kind` and `description`); empty for an unknown kind.
+pub fn keys_of(kind: &str) -> &'static [&'static str] {
     match kind {
         "regular-pyramids" => &[
             "base_um",

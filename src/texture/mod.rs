@@ -26,6 +26,7 @@
 //! should count it as lost.
 
 pub mod file;
+pub mod flipped;
 pub mod grooves;
 pub mod heightmap;
 pub mod ideal;
@@ -34,6 +35,7 @@ pub mod pyramids;
 pub mod random;
 
 pub use file::{Problem, RawEntry, RawTexture, TextureError, from_file, from_table, from_toml_str};
+pub use flipped::Flipped;
 pub use grooves::VGrooves;
 pub use heightmap::HeightMap;
 pub use ideal::{IdealLambertian, IdealSpecular, lambertian_direction};
