@@ -136,3 +136,35 @@ fn under_top_cell_reads_the_filtered_spectrum_file() {
     assert_eq!(s.light.weighting_band_nm, (700.0, 1200.0));
     assert!(matches!(&s.stack[0], Element::Interface(_)));
 }
+
+#[test]
+fn the_minimal_scenario_in_the_docs_validates_with_the_documented_defaults() {
+    let doc =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/scenario.md"))
+            .unwrap();
+    let start = doc
+        .find("```toml\n")
+        .expect("a TOML block in docs/scenario.md")
+        + 8;
+    let end = start + doc[start..].find("```").unwrap();
+    let origin = Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/minimal.toml");
+    let s = Scenario::from_str(&doc[start..end], &origin).unwrap_or_else(|e| panic!("{e}"));
+    // Defaults stated in the docs.
+    assert_eq!(s.light.spectrum.get().id(), "am1.5g");
+    assert_eq!(s.light.wavelengths.bounds_nm(), (300.0, 1200.0));
+    assert_eq!(s.light.wavelengths.len(), 91);
+    assert_eq!(s.light.polar_angle_deg, 0.0);
+    assert_eq!(s.above.material.id(), "air");
+    assert_eq!(s.solver.rays, RayBudget::Fixed(10_000));
+    assert_eq!(s.solver.mode, Mode::Direct);
+    let names: Vec<String> = s
+        .stack
+        .iter()
+        .map(|e| match e {
+            Element::Interface(i) => i.name.clone(),
+            Element::Layer(l) => l.name.clone(),
+        })
+        .collect();
+    assert_eq!(names, ["front", "layer-1", "rear"]);
+    assert_eq!(s.absorber_layer().material.id(), "si-green2008");
+}
