@@ -324,6 +324,14 @@ impl RawScenario {
             Err(e) => {
                 let (line, col) = e.span().map_or((0, 0), |s| line_col(text, s.start));
                 let message = e.message().trim().replace('\n', " ");
+                let fix = if message.contains("duplicate key `stack`") {
+                    "write every stack element under its own [[stack]] header (double brackets); \
+                     a single [stack] cannot be mixed with them"
+                } else if message.contains("duplicate key") {
+                    "each key and each [table] may appear only once: remove or merge the repeat"
+                } else {
+                    "correct the syntax at that position"
+                };
                 return Err(ScenarioError::Invalid {
                     file: file.to_path_buf(),
                     problems: vec![Problem {
@@ -334,7 +342,7 @@ impl RawScenario {
                         expected: "TOML syntax: `key = value` lines, `[table]` and `[[stack]]` \
                                    headers, strings in double quotes"
                             .into(),
-                        fix: "correct the syntax at that position".into(),
+                        fix: fix.into(),
                     }],
                 });
             }

@@ -89,12 +89,24 @@ pub(super) fn text(s: &Scenario) -> String {
         match e {
             Element::Interface(i) => {
                 let pad = " ".repeat(width + 15);
+                let flat = i.texture.z_range_um() == [0.0, 0.0];
+                let (orientation, describe) = if flat {
+                    (
+                        "flat".to_string(),
+                        i.texture
+                            .describe()
+                            .replace(" (features pointing down)", ""),
+                    )
+                } else {
+                    (
+                        format!("features {}", features_text(i.features)),
+                        i.texture.describe(),
+                    )
+                };
                 out += &format!(
-                    "  {:<width$}  interface  {}, features {}\n{pad}{}\n{pad}coating: {}\n",
+                    "  {:<width$}  interface  {}, {orientation}\n{pad}{describe}\n{pad}coating: {}\n",
                     i.name,
                     i.texture_label,
-                    features_text(i.features),
-                    i.texture.describe(),
                     coating_text(i)
                 );
             }

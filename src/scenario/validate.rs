@@ -1297,7 +1297,8 @@ fn stack(ck: &mut Checker<'_>) -> Option<(Vec<Element>, usize)> {
             );
         }
         if let Some(j) = (0..i).find(|&j| elems[j].name == name) {
-            let (l, _) = ck.pos(Some(&elems[j].span));
+            let other = elems[j].name_span.as_ref().unwrap_or(&elems[j].span);
+            let (l, _) = ck.pos(Some(other));
             ck.at(
                 Some(&anchor),
                 format!("two stack elements are named \"{name}\" (the other one at line {l})"),
