@@ -75,17 +75,21 @@ pub struct Gap {
 impl Gap {
     /// Gap of the ray (`o` in the plane's local frame, `d` the direction) to plane `p`.
     ///
-    /// On-plane rule: when |G(0)| does not exceed its rounding-error bound
-    /// (γ₆ times the sum of the magnitudes of its terms; Higham 2002, Lemma 3.1, with one
-    /// extra rounding for the shift of `o` into the local frame), G(0) is set to 0, so the
-    /// ray counts as leaving the plane to the side `d` points to. Hence a root within the
-    /// error bound of t = 0 is not a crossing ("a hit counts only if t exceeds its bound").
+    /// On-plane rule: when |G(0)| does not exceed its tolerance, G(0) is set to 0, so the ray
+    /// counts as leaving the plane to the side `d` points to and a root within that tolerance
+    /// of t = 0 is not a crossing ("a hit counts only if t exceeds its error bound"). The
+    /// tolerance is the larger of the rounding-error bound of G(0) (γ₆ times the sum of the
+    /// magnitudes of its terms; Higham 2002, Lemma 3.1, with one extra rounding for the shift
+    /// of `o` into the local frame) and `tol_abs`, the texture's bound on how far an origin
+    /// offset from a previous hit ([`super::robust::offset_origin`]) can be from the surface
+    /// — which matters at valleys, where the offset along one facet's normal moves the origin
+    /// towards the neighbouring facet's plane.
     #[inline]
-    pub fn new(p: &HeightPlane, o: Vec3, d: Vec3) -> Gap {
+    pub fn new(p: &HeightPlane, o: Vec3, d: Vec3, tol_abs: f64) -> Gap {
         let ax = p.a * o.x;
         let by = p.b * o.y;
         let c = o.z - (ax + by + p.w);
-        let err = gamma(6) * (o.z.abs() + ax.abs() + by.abs() + p.w.abs());
+        let err = (gamma(6) * (o.z.abs() + ax.abs() + by.abs() + p.w.abs())).max(tol_abs);
         let e = d.z - (p.a * d.x + p.b * d.y);
         Gap {
             c: if c.abs() <= err { 0.0 } else { c },
@@ -109,11 +113,11 @@ impl Gap {
     #[inline]
     pub fn below(self, tag: u32) -> Span {
         if self.e > 0.0 {
-            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag)
+            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag, self.e.abs())
         } else if self.e < 0.0 {
-            Span::new(-self.c / self.e, f64::INFINITY, tag)
+            Span::new(-self.c / self.e, f64::INFINITY, tag, self.e.abs())
         } else if self.c < 0.0 {
-            Span::new(f64::NEG_INFINITY, f64::INFINITY, tag)
+            Span::new(f64::NEG_INFINITY, f64::INFINITY, tag, 0.0)
         } else {
             Span::EMPTY
         }
@@ -123,11 +127,11 @@ impl Gap {
     #[inline]
     pub fn above(self, tag: u32) -> Span {
         if self.e > 0.0 {
-            Span::new(-self.c / self.e, f64::INFINITY, tag)
+            Span::new(-self.c / self.e, f64::INFINITY, tag, self.e.abs())
         } else if self.e < 0.0 {
-            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag)
+            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag, self.e.abs())
         } else if self.c >= 0.0 {
-            Span::new(f64::NEG_INFINITY, f64::INFINITY, tag)
+            Span::new(f64::NEG_INFINITY, f64::INFINITY, tag, 0.0)
         } else {
             Span::EMPTY
         }
@@ -146,6 +150,10 @@ pub struct Span {
     pub start_tag: u32,
     /// Plane whose root is `end`.
     pub end_tag: u32,
+    /// |dG/dt| of the plane at `start` (how fast the ray moves away from it), µm per unit t.
+    pub start_rate: f64,
+    /// |dG/dt| of the plane at `end`.
+    pub end_rate: f64,
 }
 
 impl Span {
@@ -155,6 +163,8 @@ impl Span {
         end: f64::NEG_INFINITY,
         start_tag: u32::MAX,
         end_tag: u32::MAX,
+        start_rate: f64::INFINITY,
+        end_rate: f64::INFINITY,
     };
 
     /// The whole line, to be narrowed by [`Span::and`].
@@ -163,15 +173,19 @@ impl Span {
         end: f64::INFINITY,
         start_tag: u32::MAX,
         end_tag: u32::MAX,
+        start_rate: f64::INFINITY,
+        end_rate: f64::INFINITY,
     };
 
     #[inline]
-    fn new(start: f64, end: f64, tag: u32) -> Span {
+    fn new(start: f64, end: f64, tag: u32, rate: f64) -> Span {
         Span {
             start,
             end,
             start_tag: tag,
             end_tag: tag,
+            start_rate: rate,
+            end_rate: rate,
         }
     }
 
@@ -185,21 +199,23 @@ impl Span {
     /// the tag already held is kept, so ownership of an edge follows the plane order.
     #[inline]
     pub fn and(self, o: Span) -> Span {
-        let (start, start_tag) = if o.start > self.start {
-            (o.start, o.start_tag)
+        let (start, start_tag, start_rate) = if o.start > self.start {
+            (o.start, o.start_tag, o.start_rate)
         } else {
-            (self.start, self.start_tag)
+            (self.start, self.start_tag, self.start_rate)
         };
-        let (end, end_tag) = if o.end < self.end {
-            (o.end, o.end_tag)
+        let (end, end_tag, end_rate) = if o.end < self.end {
+            (o.end, o.end_tag, o.end_rate)
         } else {
-            (self.end, self.end_tag)
+            (self.end, self.end_tag, self.end_rate)
         };
         Span {
             start,
             end,
             start_tag,
             end_tag,
+            start_rate,
+            end_rate,
         }
     }
 
@@ -216,9 +232,17 @@ impl Span {
 pub struct Entry {
     /// Ray parameter.
     pub t: f64,
-    /// Tag of the plane crossed, or `None` when the ray was already inside the set at `lo`
-    /// (a crossing on the cell's side wall; the texture then names the facet under the point).
+    /// Tag of the plane crossed. When the ray was already inside the set at `lo` (a crossing
+    /// on the cell's side wall, or at the origin), the plane of the most recent boundary of
+    /// the set before `lo` — it faces the ray the right way by construction; `None` when no
+    /// finite boundary exists (the texture then looks at the facet under the ray).
     pub tag: Option<u32>,
+    /// True when the ray was already inside the set at `lo` (then `t == lo`).
+    pub inside_at_lo: bool,
+    /// |dG/dt| of the tagged plane (∞ when unknown): how fast the ray moves away from it.
+    pub rate: f64,
+    /// Root of the tagged plane (≤ t; −∞ when unknown): since when the ray is in the set.
+    pub since: f64,
 }
 
 /// First t in [lo, hi] inside the union of `spans`.
@@ -228,9 +252,18 @@ pub fn first_in_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
     for s in spans {
         if let Some(t) = s.first_from(lo) {
             if t <= hi && best.is_none_or(|b| t < b.t) {
+                let tag = s.start.is_finite().then_some(s.start_tag);
+                let rate = if tag.is_some() {
+                    s.start_rate
+                } else {
+                    f64::INFINITY
+                };
                 best = Some(Entry {
                     t,
-                    tag: (s.start >= lo).then_some(s.start_tag),
+                    tag,
+                    inside_at_lo: s.start < lo,
+                    rate,
+                    since: s.start,
                 });
             }
         }
@@ -243,6 +276,9 @@ pub fn first_in_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
 pub fn first_outside_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
     let mut t = lo;
     let mut tag = None;
+    let mut rate = f64::INFINITY;
+    let mut since = f64::NEG_INFINITY;
+    let mut moved_ever = false;
     // Each pass either moves t strictly forward to the end of a span containing it or stops;
     // at most `spans.len()` passes move it.
     for _ in 0..=spans.len() {
@@ -251,14 +287,36 @@ pub fn first_outside_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
             if s.start <= t && t < s.end {
                 t = s.end;
                 tag = Some(s.end_tag);
+                rate = s.end_rate;
+                since = s.end;
                 moved = true;
+                moved_ever = true;
             }
         }
         if !moved || t > hi {
             break;
         }
     }
-    (t <= hi).then_some(Entry { t, tag })
+    if tag.is_none() {
+        // Already outside at `lo`: the latest finite end of a span (possibly of zero length,
+        // a touch at `lo`) is the plane the ray left through.
+        let mut latest = f64::NEG_INFINITY;
+        for s in spans {
+            if s.start <= s.end && s.end <= lo && s.end.is_finite() && s.end > latest {
+                latest = s.end;
+                tag = Some(s.end_tag);
+                rate = s.end_rate;
+                since = s.end;
+            }
+        }
+    }
+    (t <= hi).then_some(Entry {
+        t,
+        tag,
+        inside_at_lo: !moved_ever,
+        rate,
+        since,
+    })
 }
 
 #[cfg(test)]
@@ -277,7 +335,7 @@ mod tests {
             (Vec3::new(0.1, 0.2, -3.0), Vec3::new(0.6, 0.0, 0.8)),
             (Vec3::new(0.1, 0.2, 2.0), Vec3::new(1.0, 0.0, 0.0)),
         ] {
-            let g = Gap::new(&p, o, d);
+            let g = Gap::new(&p, o, d, 0.0);
             for t in [-5.0, -0.1, 0.0, 0.7, 4.0, 9.0] {
                 let b = g.below(0);
                 let a = g.above(0);
@@ -301,8 +359,8 @@ mod tests {
             w: 0.0,
         };
         let o = Vec3::new(0.1, 0.0, 0.1); // on z = x
-        let up = Gap::new(&p, o, Vec3::new(-0.6, 0.0, 0.8));
-        let down = Gap::new(&p, o, Vec3::new(0.6, 0.0, -0.8));
+        let up = Gap::new(&p, o, Vec3::new(-0.6, 0.0, 0.8), 0.0);
+        let down = Gap::new(&p, o, Vec3::new(0.6, 0.0, -0.8), 0.0);
         assert_eq!(up.c, 0.0);
         assert!(
             up.below(0).first_from(0.0).is_none(),
@@ -322,22 +380,32 @@ mod tests {
             end: 3.0,
             start_tag: 1,
             end_tag: 11,
+            start_rate: 1.0,
+            end_rate: 1.0,
         };
         let s2 = Span {
             start: 2.0,
             end: 5.0,
             start_tag: 2,
             end_tag: 22,
+            start_rate: 1.0,
+            end_rate: 1.0,
         };
         let e = first_in_union(&[s1, s2], 0.0, 10.0).unwrap();
         assert_eq!((e.t, e.tag), (1.0, Some(1)));
         let e = first_in_union(&[s1, s2], 1.5, 10.0).unwrap();
-        assert_eq!((e.t, e.tag), (1.5, None));
+        assert_eq!(
+            (e.t, e.tag),
+            (1.5, Some(1)),
+            "inside since t = 1: entered through 1"
+        );
         assert!(first_in_union(&[s1, s2], 0.0, 0.5).is_none());
         let e = first_outside_union(&[s2, s1], 1.5, 10.0).unwrap();
         assert_eq!((e.t, e.tag), (5.0, Some(22)));
         assert!(first_outside_union(&[s2, s1], 1.5, 4.0).is_none());
         let e = first_outside_union(&[s1], 0.5, 4.0).unwrap();
-        assert_eq!((e.t, e.tag), (0.5, None));
+        assert_eq!((e.t, e.tag), (0.5, None), "never inside: no boundary");
+        let e = first_outside_union(&[s1], 3.5, 4.0).unwrap();
+        assert_eq!((e.t, e.tag), (3.5, Some(11)), "left through 11 at t = 3");
     }
 }
