@@ -322,7 +322,8 @@ fn jiggle(s: &mut Stream, x: f64) -> f64 {
 struct Tally {
     rays: usize,
     skipped: usize,
-    /// Aimed rays that crossed more than once near the aim point (skimming a corner).
+    /// Aimed rays that met the surface more than once up to the aim point (an obstruction
+    /// first, or a corner skimmed within rounding).
     multiple: usize,
     failures: Vec<String>,
 }
@@ -509,16 +510,24 @@ fn leaving_rays(case: &Case, n: usize, seed: u64) -> Tally {
                 "leaving facet {:?} at {:?} along {d:?} (skip {skip:?})",
                 h.facet, h.point
             );
+            // Without `skip`, an origin within rounding of a valley is ambiguous (which facet
+            // was left?); the texture then follows its documented rule (leave the facet owning
+            // the position), so only the properties that do not depend on it are required.
+            let strict = skip.is_some();
             match case.tex.intersect(o, d, skip) {
                 Some(h2) => {
                     if h2.facet == h.facet && h2.t < 1e-6 * case.scale {
                         tally.fail(format!("{}: {what}: self-hit at t = {:e}", case.name, h2.t));
                     }
-                    check_hit(case, d, &h2, up, &what, &mut tally);
+                    if strict {
+                        check_hit(case, d, &h2, up, &what, &mut tally);
+                    } else if case.gap(h2.point).abs() > 1e-9 * case.scale {
+                        tally.fail(format!("{}: {what}: hit off the surface", case.name));
+                    }
                 }
                 None => {
                     // Above the surface and heading down, or inside and heading up: must land.
-                    if (up && d.z < -1e-3) || (!up && d.z > 1e-3) {
+                    if strict && ((up && d.z < -1e-3) || (!up && d.z > 1e-3)) {
                         tally.fail(format!("{}: {what}: lost", case.name));
                     }
                 }

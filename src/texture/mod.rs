@@ -12,18 +12,31 @@
 //! optional flat gaps and rotation), [`VGrooves`], [`RandomPyramids`] (union of random upright
 //! pyramids on a periodic tile), [`HeightMap`] (triangulated grayscale image), and the ideal
 //! references [`IdealSpecular`] and [`IdealLambertian`] (contract in [`ideal`]). Files:
-//! [`from_file`] reads our TOML texture schema (see [`file`]).
+//! [`from_file`] reads our TOML texture schema (see [`mod@file`]).
 //!
-//! How crossings are found (all analytic textures): a 2D walk over the lattice cells the ray's
-//! xy projection crosses ([`crate::geometry::grid`]), and within each cell the first change of
+//! How crossings are found (every texture): a 2D walk over the lattice cells the ray's xy
+//! projection crosses ([`crate::geometry::grid`]), and within each cell the first change of
 //! side computed from one root per facet plane ([`crate::geometry::crossing`]). The side the
 //! ray starts on is, in order: above/below the slab `z_range_um()` if the origin lies outside
-//! it; the side `dir` points to relative to `skip` if given; otherwise the side the origin lies
-//! on (an origin on the surface within rounding error counts as leaving it along `dir`).
+//! it; the side `dir` points to relative to `skip` if given; the side of the surface the
+//! origin lies on; for an origin on the surface within rounding, the side `dir` points to
+//! relative to the facet owning that position.
+//!
+//! Robustness rules (tests: `tests/robustness.rs`): a hit point is snapped onto the surface
+//! and its `p_err` bounds its distance to it; a change of side counts only if the ray then
+//! gets deeper than a tolerance of ~10⁻¹⁵ of the feature size on the far side
+//! (`cell_entry`), so reported sides alternate along a ray and a ray through an edge,
+//! valley, tip or cell corner lands exactly once (net); the facet named for a crossing always
+//! faces the ray the right way (`crossed_facet`).
+//!
+//! For the tracer: start each new ray at
+//! `offset_origin(hit.point, hit.p_err, hit.normal, dir)`
+//! ([`crate::geometry::robust::offset_origin`]) and pass `Some(hit.facet)` as `skip`.
+//!
 //! Limits: a ray that would cross more than [`MAX_CELLS_PER_QUERY`] cells inside the slab
 //! (|dir.z| ≲ 10⁻⁵ over a textured surface) returns `None` although it is still inside the
-//! slab; the tracer can tell (its origin side and direction do not lead out of the slab) and
-//! should count it as lost.
+//! slab; the tracer can tell (its side and direction do not lead out of the slab) and should
+//! count it as lost.
 
 pub mod file;
 pub mod grooves;
@@ -38,8 +51,8 @@ pub use grooves::VGrooves;
 pub use heightmap::HeightMap;
 pub use ideal::{IdealLambertian, IdealSpecular, lambertian_direction};
 pub use planar::Planar;
-pub use pyramids::RegularPyramids;
-pub use random::{RandomPyramids, RandomPyramidsSpec, SizeDistribution};
+pub use pyramids::{RegularPyramids, RegularPyramidsSpec};
+pub use random::{Pyramid, RandomPyramids, RandomPyramidsSpec, SizeDistribution, SizeOf};
 
 use crate::geometry::crossing::{Entry, Span, first_in_union, first_outside_union};
 use crate::geometry::{FacetId, Hit, Vec3, gamma};
