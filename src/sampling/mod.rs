@@ -30,9 +30,7 @@ impl Stream {
     /// (D. Blackman & S. Vigna, ACM TOMS 47(4), 36 (2021)).
     pub fn new(seed: u64, job_key: u64, chunk: u64) -> Self {
         let h = splitmix64(splitmix64(splitmix64(seed) ^ job_key) ^ chunk);
-        Stream {
-            rng: Xoshiro256PlusPlus::seed_from_u64(h),
-        }
+        Stream { rng: Xoshiro256PlusPlus::seed_from_u64(h) }
     }
 
     /// Uniform in [0, 1) with 53 random bits.
@@ -81,14 +79,8 @@ mod tests {
     fn streams_are_reproducible_and_distinct() {
         let a: Vec<u64> = (0..4).map(|_| Stream::new(7, 1, 2).next_u64()).collect();
         assert!(a.windows(2).all(|w| w[0] == w[1]));
-        assert_ne!(
-            Stream::new(7, 1, 2).next_u64(),
-            Stream::new(7, 1, 3).next_u64()
-        );
-        assert_ne!(
-            Stream::new(7, 1, 2).next_u64(),
-            Stream::new(7, 2, 2).next_u64()
-        );
+        assert_ne!(Stream::new(7, 1, 2).next_u64(), Stream::new(7, 1, 3).next_u64());
+        assert_ne!(Stream::new(7, 1, 2).next_u64(), Stream::new(7, 2, 2).next_u64());
     }
 
     #[test]
