@@ -44,7 +44,7 @@ impl HeightPlane {
     };
 
     /// Height of the plane at (x, y), µm.
-    #[inline]
+    #[inline(always)]
     pub fn z_at(&self, x: f64, y: f64) -> f64 {
         self.a * x + self.b * y + self.w
     }
@@ -62,6 +62,83 @@ impl HeightPlane {
     }
 }
 
+/// dG/dt of a plane along a ray direction and its reciprocal, computed once per ray.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Slope {
+    /// dG/dt = d_z − (a·d_x + b·d_y).
+    pub e: f64,
+    /// 1/e (±∞ when e = 0).
+    pub inv: f64,
+}
+
+impl Slope {
+    /// Slope of the gap to plane `p` along direction `d`.
+    #[inline(always)]
+    pub fn of(p: &HeightPlane, d: Vec3) -> Slope {
+        let e = d.z - (p.a * d.x + p.b * d.y);
+        Slope { e, inv: 1.0 / e }
+    }
+}
+
+/// The four faces of square pyramids with sides along x and y and facet slope tan α, along
+/// one ray: slopes computed once per ray, gaps per pyramid from the apex height alone.
+///
+/// Faces, in order: 0 on the +x side of the axis, 1 on −x, 2 on +y, 3 on −y. Upright
+/// (z = H − tan α·‖(x, y) − c‖∞): face 0 is z = H − tan α·(x − cx). Inverted pit of depth H
+/// (z = tan α·‖(x, y) − c‖∞ − H): face 0 is z = tan α·(x − cx) − H. The gaps equal those of
+/// [`Gap::new`] for the same planes up to rounding, and use the same on-plane rule.
+#[derive(Clone, Copy, Debug)]
+pub struct SquareFaces {
+    tan: f64,
+    slopes: [Slope; 4],
+    inverted: bool,
+}
+
+impl SquareFaces {
+    /// Set-up for facet slope `tan` (> 0) and ray direction `d`.
+    #[inline(always)]
+    pub fn new(tan: f64, d: Vec3, inverted: bool) -> SquareFaces {
+        let (tx, ty) = if inverted {
+            (-tan * d.x, -tan * d.y)
+        } else {
+            (tan * d.x, tan * d.y)
+        };
+        let sl = |e: f64| Slope { e, inv: 1.0 / e };
+        SquareFaces {
+            tan,
+            slopes: [sl(d.z + tx), sl(d.z - tx), sl(d.z + ty), sl(d.z - ty)],
+            inverted,
+        }
+    }
+
+    /// The facet slope tan α.
+    #[inline(always)]
+    pub fn tan(&self) -> f64 {
+        self.tan
+    }
+
+    /// Gaps to the four faces of the pyramid whose axis passes through the origin's local
+    /// (x, y) = (`dx`, `dy`) from it, apex height (or pit depth) `h`; `oz` is the origin's z.
+    #[inline(always)]
+    pub fn gaps(&self, dx: f64, dy: f64, oz: f64, h: f64, tol_abs: f64) -> [Gap; 4] {
+        let (u, v) = (self.tan * dx, self.tan * dy);
+        let (q, u, v) = if self.inverted {
+            (oz + h, -u, -v)
+        } else {
+            (oz - h, u, v)
+        };
+        let err = (gamma(6) * (oz.abs() + h.abs() + u.abs() + v.abs())).max(tol_abs);
+        let c = [q + u, q - u, q + v, q - v];
+        let s = &self.slopes;
+        let gap = |k: usize| Gap {
+            c: if c[k].abs() <= err { 0.0 } else { c[k] },
+            e: s[k].e,
+            inv: s[k].inv,
+        };
+        [gap(0), gap(1), gap(2), gap(3)]
+    }
+}
+
 /// The vertical gap G(t) = z(t) − plane(x(t), y(t)) = c + e·t between a ray and a plane.
 /// G > 0: the ray is above the plane.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -70,6 +147,8 @@ pub struct Gap {
     pub c: f64,
     /// dG/dt, the direction's component along the unnormalised up normal (−a, −b, 1).
     pub e: f64,
+    /// 1/e (roots are −c·inv; ±∞ when e = 0).
+    pub inv: f64,
 }
 
 impl Gap {
@@ -86,36 +165,42 @@ impl Gap {
     /// towards the neighbouring facet's plane.
     #[inline]
     pub fn new(p: &HeightPlane, o: Vec3, d: Vec3, tol_abs: f64) -> Gap {
+        Gap::with_slope(p, o, Slope::of(p, d), tol_abs)
+    }
+
+    /// As [`Gap::new`], with the slope along the ray computed beforehand (once per ray).
+    #[inline(always)]
+    pub fn with_slope(p: &HeightPlane, o: Vec3, slope: Slope, tol_abs: f64) -> Gap {
         let ax = p.a * o.x;
         let by = p.b * o.y;
         let c = o.z - (ax + by + p.w);
         let err = (gamma(6) * (o.z.abs() + ax.abs() + by.abs() + p.w.abs())).max(tol_abs);
-        let e = d.z - (p.a * d.x + p.b * d.y);
         Gap {
             c: if c.abs() <= err { 0.0 } else { c },
-            e,
+            e: slope.e,
+            inv: slope.inv,
         }
     }
 
     /// The same plane, with the origin declared to lie on it (used for the facet a ray leaves).
-    #[inline]
+    #[inline(always)]
     pub fn on_plane(self) -> Gap {
-        Gap { c: 0.0, e: self.e }
+        Gap { c: 0.0, ..self }
     }
 
     /// G(t).
-    #[inline]
+    #[inline(always)]
     pub fn at(self, t: f64) -> f64 {
         self.c + self.e * t
     }
 
     /// The half-line {t : G(t) < 0} (ray below the plane) as a span tagged `tag`.
-    #[inline]
+    #[inline(always)]
     pub fn below(self, tag: u32) -> Span {
         if self.e > 0.0 {
-            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag, self.e.abs())
+            Span::new(f64::NEG_INFINITY, -self.c * self.inv, tag, self.e.abs())
         } else if self.e < 0.0 {
-            Span::new(-self.c / self.e, f64::INFINITY, tag, self.e.abs())
+            Span::new(-self.c * self.inv, f64::INFINITY, tag, self.e.abs())
         } else if self.c < 0.0 {
             Span::new(f64::NEG_INFINITY, f64::INFINITY, tag, 0.0)
         } else {
@@ -124,12 +209,12 @@ impl Gap {
     }
 
     /// The half-line {t : G(t) ≥ 0} (ray on or above the plane) as a span tagged `tag`.
-    #[inline]
+    #[inline(always)]
     pub fn above(self, tag: u32) -> Span {
         if self.e > 0.0 {
-            Span::new(-self.c / self.e, f64::INFINITY, tag, self.e.abs())
+            Span::new(-self.c * self.inv, f64::INFINITY, tag, self.e.abs())
         } else if self.e < 0.0 {
-            Span::new(f64::NEG_INFINITY, -self.c / self.e, tag, self.e.abs())
+            Span::new(f64::NEG_INFINITY, -self.c * self.inv, tag, self.e.abs())
         } else if self.c >= 0.0 {
             Span::new(f64::NEG_INFINITY, f64::INFINITY, tag, 0.0)
         } else {
@@ -177,7 +262,7 @@ impl Span {
         end_rate: f64::INFINITY,
     };
 
-    #[inline]
+    #[inline(always)]
     fn new(start: f64, end: f64, tag: u32, rate: f64) -> Span {
         Span {
             start,
@@ -197,7 +282,7 @@ impl Span {
 
     /// Intersection (the clipping step of Cyrus–Beck: latest start, earliest end). On a tie
     /// the tag already held is kept, so ownership of an edge follows the plane order.
-    #[inline]
+    #[inline(always)]
     pub fn and(self, o: Span) -> Span {
         let (start, start_tag, start_rate) = if o.start > self.start {
             (o.start, o.start_tag, o.start_rate)
@@ -220,7 +305,7 @@ impl Span {
     }
 
     /// First t ≥ `lo` inside the span, if any.
-    #[inline]
+    #[inline(always)]
     pub fn first_from(&self, lo: f64) -> Option<f64> {
         let t = self.start.max(lo);
         (t < self.end).then_some(t)
@@ -243,36 +328,44 @@ pub struct Entry {
     pub rate: f64,
     /// Root of the tagged plane (≤ t; −∞ when unknown): since when the ray is in the set.
     pub since: f64,
+    /// End of the entered span and |dG/dt| of its plane (entries into a union only; ∞
+    /// otherwise): the ray stays in the set at least until then.
+    pub span_end: f64,
+    /// |dG/dt| of the plane at `span_end`.
+    pub span_end_rate: f64,
 }
 
 /// First t in [lo, hi] inside the union of `spans`.
-#[inline]
+#[inline(always)]
 pub fn first_in_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
     let mut best: Option<Entry> = None;
     for s in spans {
-        if let Some(t) = s.first_from(lo) {
-            if t <= hi && best.is_none_or(|b| t < b.t) {
-                let tag = s.start.is_finite().then_some(s.start_tag);
-                let rate = if tag.is_some() {
-                    s.start_rate
-                } else {
-                    f64::INFINITY
-                };
-                best = Some(Entry {
-                    t,
-                    tag,
-                    inside_at_lo: s.start < lo,
-                    rate,
-                    since: s.start,
-                });
-            }
+        if let Some(t) = s.first_from(lo)
+            && t <= hi
+            && best.is_none_or(|b| t < b.t)
+        {
+            let tag = s.start.is_finite().then_some(s.start_tag);
+            let rate = if tag.is_some() {
+                s.start_rate
+            } else {
+                f64::INFINITY
+            };
+            best = Some(Entry {
+                t,
+                tag,
+                inside_at_lo: s.start < lo,
+                rate,
+                since: s.start,
+                span_end: s.end,
+                span_end_rate: s.end_rate,
+            });
         }
     }
     best
 }
 
 /// First t in [lo, hi] outside the union of `spans` (the ray leaves every span).
-#[inline]
+#[inline(always)]
 pub fn first_outside_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
     let mut t = lo;
     let mut tag = None;
@@ -316,6 +409,8 @@ pub fn first_outside_union(spans: &[Span], lo: f64, hi: f64) -> Option<Entry> {
         inside_at_lo: !moved_ever,
         rate,
         since,
+        span_end: f64::INFINITY,
+        span_end_rate: f64::INFINITY,
     })
 }
 

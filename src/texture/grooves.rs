@@ -12,7 +12,7 @@ use super::{
 };
 use crate::geometry::crossing::{Gap, HeightPlane, Span};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64};
 use crate::texture::pyramids::{check_angle, check_length};
 
 /// Relative padding of the slab searched for crossings.
@@ -79,10 +79,10 @@ impl VGrooves {
     fn gaps(&self, o: Vec3, d: Vec3, i: i64, skip: Option<u32>) -> [Gap; 2] {
         let ol = Vec3::new(o.x - i as f64 * self.period, o.y, o.z);
         let mut g = self.planes.map(|p| Gap::new(&p, ol, d, self.tol));
-        if i == 0 {
-            if let Some(k) = skip {
-                g[k as usize] = g[k as usize].on_plane();
-            }
+        if i == 0
+            && let Some(k) = skip
+        {
+            g[k as usize] = g[k as usize].on_plane();
         }
         g
     }
@@ -109,7 +109,7 @@ impl Texture for VGrooves {
         let side = side_outside_slab(o.z, z_lo, z_hi)
             .or_else(|| Side::leaving(Gap::new(&self.planes[skip? as usize], Vec3::ZERO, d, 0.0).e))
             .or_else(|| {
-                let i = (o.x / self.period).floor() as i64;
+                let i = floor_i64(o.x / self.period);
                 let x = o.x - i as f64 * self.period;
                 let (z0, z1) = (self.planes[0].z_at(x, 0.0), self.planes[1].z_at(x, 0.0));
                 let plane = if z0 <= z1 {
@@ -121,7 +121,7 @@ impl Texture for VGrooves {
                 super::side_from_surface(ol, d, z0.min(z1), plane.z_err(x, 0.0), self.tol, &plane)
             })
             .unwrap_or_else(|| {
-                let i = (o.x / self.period).floor() as i64;
+                let i = floor_i64(o.x / self.period);
                 side_at_origin(&Self::below_spans(&self.gaps(o, d, i, skip)))
             });
         // Walk along x only: the y component is dropped from the walk direction.
@@ -136,7 +136,7 @@ impl Texture for VGrooves {
             let t = entry.t;
             let probe = |dt: f64| {
                 let q = o + (t + dt) * d;
-                let i = (q.x / self.period).floor() as i64;
+                let i = floor_i64(q.x / self.period);
                 let qx = q.x - i as f64 * self.period;
                 let (q0, q1) = (self.planes[0].z_at(qx, 0.0), self.planes[1].z_at(qx, 0.0));
                 (i, if q0 <= q1 { 0 } else { 1 })

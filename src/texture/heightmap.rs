@@ -42,7 +42,7 @@ use super::{
 };
 use crate::geometry::crossing::{Gap, HeightPlane, Span};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3, gamma};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
 
 /// Largest accepted image side, pixels.
 pub const MAX_SIDE_PX: usize = 4096;
@@ -358,10 +358,7 @@ impl Texture for HeightMap {
                 Side::leaving(Gap::new(&p, Vec3::ZERO, d, 0.0).e)
             })
             .or_else(|| {
-                let (gi, gj) = (
-                    (o.x / self.pixel).floor() as i64,
-                    (o.y / self.pixel).floor() as i64,
-                );
+                let (gi, gj) = (floor_i64(o.x / self.pixel), floor_i64(o.y / self.pixel));
                 let q = self.quad(gi, gj);
                 let (x, y) = (o.x - gi as f64 * self.pixel, o.y - gj as f64 * self.pixel);
                 let (z, k) = q.surface(x, y);
@@ -371,10 +368,7 @@ impl Texture for HeightMap {
                 super::side_from_surface(Vec3::new(x, y, o.z), d, z, err, self.tol, &owner)
             })
             .unwrap_or_else(|| {
-                let (gi, gj) = (
-                    (o.x / self.pixel).floor() as i64,
-                    (o.y / self.pixel).floor() as i64,
-                );
+                let (gi, gj) = (floor_i64(o.x / self.pixel), floor_i64(o.y / self.pixel));
                 let (q, g, _) = quad(gi, gj);
                 side_at_origin(&q.below(&g))
             });
@@ -401,10 +395,7 @@ impl Texture for HeightMap {
             let t = entry.t;
             let probe = |dt: f64| {
                 let q = o + (t + dt) * d;
-                let (gi, gj) = (
-                    (q.x / self.pixel).floor() as i64,
-                    (q.y / self.pixel).floor() as i64,
-                );
+                let (gi, gj) = (floor_i64(q.x / self.pixel), floor_i64(q.y / self.pixel));
                 let (qx, qy) = (q.x - gi as f64 * self.pixel, q.y - gj as f64 * self.pixel);
                 ((gi, gj), self.quad(gi, gj).surface(qx, qy).1 as u32)
             };

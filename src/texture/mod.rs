@@ -145,13 +145,13 @@ impl Side {
 }
 
 /// Parameter interval [t0, t1], t0 ≥ 0, where the ray's z lies in [z_lo, z_hi]; `None` if empty.
-#[inline]
+#[inline(always)]
 pub(crate) fn slab_interval(oz: f64, dz: f64, z_lo: f64, z_hi: f64) -> Option<(f64, f64)> {
     if dz == 0.0 {
         return (z_lo <= oz && oz <= z_hi).then_some((0.0, f64::INFINITY));
     }
-    let ta = (z_lo - oz) / dz;
-    let tb = (z_hi - oz) / dz;
+    let inv = 1.0 / dz;
+    let (ta, tb) = ((z_lo - oz) * inv, (z_hi - oz) * inv);
     let (t0, t1) = (ta.min(tb).max(0.0), ta.max(tb));
     (t0 <= t1).then_some((t0, t1))
 }
@@ -179,7 +179,7 @@ pub(crate) fn side_outside_slab(oz: f64, z_lo: f64, z_hi: f64) -> Option<Side> {
 /// reported along a ray always alternate; one still shallow at the cell's end is left to the
 /// next cell, which sees the ray afresh (a real crossing near a wall is then reported there,
 /// at most `depth_tol` from the surface). Depth bound: see [`excursion_depth`].
-#[inline]
+#[inline(always)]
 pub(crate) fn cell_entry(
     below: &[Span],
     side: Side,
@@ -194,6 +194,11 @@ pub(crate) fn cell_entry(
             Side::Below => first_outside_union(below, from, hi),
         };
         let e = e?;
+        // Fast acceptance: a crossing inside the cell into a span that alone keeps the ray on
+        // the far side deep enough (entries at the cell's wall always get the full check).
+        if !e.inside_at_lo && excursion_depth(&e, e.span_end.min(hi), e.span_end_rate) > depth_tol {
+            return Some(e);
+        }
         let back = match side {
             Side::Above => first_outside_union(below, e.t, hi),
             Side::Below => first_in_union(below, e.t, hi),
@@ -207,12 +212,79 @@ pub(crate) fn cell_entry(
     None // the ray runs along the surface within rounding: no crossing here
 }
 
+/// Quick decision for a cell, equivalent to [`cell_entry`] where it answers:
+/// `Some(Some((t, tag)))` a crossing strictly inside the cell after which the ray goes clearly
+/// deeper than the tolerance, `Some(None)` clearly no crossing, `None` undecided (the ray is
+/// on the far side at the cell's entry, or the excursion may be shallow: use `cell_entry`).
+#[inline(always)]
+pub(crate) fn quick_entry(
+    below: &[Span],
+    side: Side,
+    lo: f64,
+    hi: f64,
+    depth_tol: f64,
+) -> Option<Option<(f64, u32)>> {
+    let deep = 4.0 * depth_tol;
+    match side {
+        Side::Above => {
+            // Outside every span at lo; the earliest start in (lo, hi].
+            let mut best: Option<&Span> = None;
+            for s in below {
+                if s.start <= lo && lo < s.end {
+                    return None;
+                }
+                if s.start > lo
+                    && s.start < s.end
+                    && s.start <= hi
+                    && best.is_none_or(|b| s.start < b.start)
+                {
+                    best = Some(s);
+                }
+            }
+            let Some(s) = best else { return Some(None) };
+            let depth = s.start_rate.min(s.end_rate) * (s.end.min(hi) - s.start);
+            (depth > deep).then_some(Some((s.start, s.start_tag)))
+        }
+        Side::Below => {
+            // Inside a span at lo; push t through the spans containing it.
+            let mut t = lo;
+            let (mut tag, mut rate) = (u32::MAX, 0.0);
+            for _ in 0..below.len() {
+                let mut moved = false;
+                for s in below {
+                    if s.start < t && t < s.end {
+                        (t, tag, rate, moved) = (s.end, s.end_tag, s.end_rate, true);
+                    }
+                }
+                if !moved {
+                    break;
+                }
+            }
+            if tag == u32::MAX {
+                return None;
+            }
+            if t > hi {
+                return Some(None);
+            }
+            // Outside from t until the next start after it.
+            let (mut back, mut back_rate) = (hi, f64::INFINITY);
+            for s in below {
+                if s.start > t && s.start < s.end && s.start < back {
+                    (back, back_rate) = (s.start, s.start_rate);
+                }
+            }
+            let depth = rate.min(back_rate) * (back - t);
+            (depth > deep).then_some(Some((t, tag)))
+        }
+    }
+}
+
 /// Upper bound on how deep the ray gets on the far side between crossing `e` and time
 /// `until`, where it comes back through a plane with |dG/dt| = `rate_back` (∞ if it does not
 /// come back), µm. On the far side since `e.since` through a plane with rate `e.rate`, the
 /// ray at time t is within e.rate·(t − e.since) of that plane and within
 /// rate_back·(until − t) of the other.
-#[inline]
+#[inline(always)]
 pub(crate) fn excursion_depth(e: &Entry, until: f64, rate_back: f64) -> f64 {
     let from_entry = if e.since.is_finite() {
         e.rate * (until - e.since)
@@ -231,7 +303,7 @@ pub(crate) fn excursion_depth(e: &Entry, until: f64, rate_back: f64) -> f64 {
 /// the set's bounding plane (`entry.tag`, right-facing by construction but possibly not at the
 /// point), the facet just after (`probe(+δ)`). The first that faces the ray the right way and
 /// is not the facet being left (`ok`) is taken.
-#[inline]
+#[inline(always)]
 pub(crate) fn crossed_facet<C: Copy>(
     entry: &Entry,
     first_cell: bool,
@@ -240,10 +312,10 @@ pub(crate) fn crossed_facet<C: Copy>(
     probe: impl Fn(f64) -> (C, u32),
     ok: impl Fn(C, u32) -> bool,
 ) -> (C, u32) {
-    if !entry.inside_at_lo {
-        if let Some(k) = entry.tag {
-            return (here, k);
-        }
+    if !entry.inside_at_lo
+        && let Some(k) = entry.tag
+    {
+        return (here, k);
     }
     let back = (!first_cell).then(|| probe(-delta));
     let tagged = entry.tag.map(|k| (here, k));

@@ -20,9 +20,9 @@ use super::{
     clamp_into, crossed_facet, facet_hit, side_at_origin, side_outside_slab, slab_interval,
     snapped_err,
 };
-use crate::geometry::crossing::{Gap, HeightPlane, Span};
+use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3, gamma};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
 use crate::texture::{PROBE_REL, on_plane_tol};
 
 /// Id of the flat base plane.
@@ -276,7 +276,7 @@ impl RegularPyramids {
     }
 
     /// The below-surface set of one cell as a union of spans of t.
-    #[inline]
+    #[inline(always)]
     fn below_spans(&self, g: &[Gap; 5]) -> [Span; 2] {
         let ground = g[4].below(FLAT_FACET);
         if self.spec.inverted {
@@ -337,18 +337,26 @@ impl RegularPyramids {
     }
 
     /// Gaps of the ray to the five planes of cell (i, j), with the leaving facet pinned.
-    #[inline]
-    fn gaps(&self, o: Vec3, d: Vec3, i: i64, j: i64, skip: Option<u32>) -> [Gap; 5] {
-        let ol = Vec3::new(
-            o.x - i as f64 * self.period,
-            o.y - j as f64 * self.period,
-            o.z,
-        );
-        let mut g = self.planes.map(|p| Gap::new(&p, ol, d, self.tol));
-        match skip {
-            Some(FLAT_FACET) => g[4] = g[4].on_plane(),
-            Some(k) if i == 0 && j == 0 => g[k as usize] = g[k as usize].on_plane(),
-            _ => {}
+    #[inline(always)]
+    fn gaps(
+        &self,
+        o: Vec3,
+        faces: &SquareFaces,
+        ground: Gap,
+        i: i64,
+        j: i64,
+        skip: Option<u32>,
+    ) -> [Gap; 5] {
+        let dx = (o.x - i as f64 * self.period) - self.centre;
+        let dy = (o.y - j as f64 * self.period) - self.centre;
+        let [g0, g1, g2, g3] = faces.gaps(dx, dy, o.z, self.height, self.tol);
+        let mut g = [g0, g1, g2, g3, ground];
+        if let Some(k) = skip
+            && k < FLAT_FACET
+            && i == 0
+            && j == 0
+        {
+            g[k as usize] = g[k as usize].on_plane();
         }
         g
     }
@@ -382,18 +390,19 @@ impl Texture for RegularPyramids {
         let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
         let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+        let tan_a = self.planes[1].a.abs();
+        let faces = SquareFaces::new(tan_a, d, self.spec.inverted);
+        // The base plane is the same in every cell.
+        let mut ground = Gap::new(&HeightPlane::GROUND, o, d, self.tol);
+        if skip == Some(FLAT_FACET) {
+            ground = ground.on_plane();
+        }
 
         // Side the ray starts on.
         let side = side_outside_slab(o.z, z_lo, z_hi)
+            .or_else(|| Side::leaving(Gap::new(&self.planes[skip? as usize], Vec3::ZERO, d, 0.0).e))
             .or_else(|| {
-                let k = skip?;
-                Side::leaving(Gap::new(&self.planes[k as usize], Vec3::ZERO, d, 0.0).e)
-            })
-            .or_else(|| {
-                let (i, j) = (
-                    (o.x / self.period).floor() as i64,
-                    (o.y / self.period).floor() as i64,
-                );
+                let (i, j) = (floor_i64(o.x / self.period), floor_i64(o.y / self.period));
                 let (x, y) = (o.x - i as f64 * self.period, o.y - j as f64 * self.period);
                 let (z, k) = self.surface(x, y);
                 let plane = self.planes[k];
@@ -401,30 +410,39 @@ impl Texture for RegularPyramids {
                 super::side_from_surface(ol, d, z, plane.z_err(x, y), self.tol, &plane)
             })
             .unwrap_or_else(|| {
-                let (i, j) = (
-                    (o.x / self.period).floor() as i64,
-                    (o.y / self.period).floor() as i64,
-                );
-                side_at_origin(&self.below_spans(&self.gaps(o, d, i, j, skip)))
+                let (i, j) = (floor_i64(o.x / self.period), floor_i64(o.y / self.period));
+                side_at_origin(&self.below_spans(&self.gaps(o, &faces, ground, i, j, skip)))
             });
 
         // Walk the lattice cells until the ray changes side.
         let mut first = true;
         for cell in GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY) {
-            let g = self.gaps(o, d, cell.i, cell.j, skip);
-            let entry = cell_entry(&self.below_spans(&g), side, cell.t0, cell.t1, self.depth);
+            let g = self.gaps(o, &faces, ground, cell.i, cell.j, skip);
+            let below = self.below_spans(&g);
             let first_cell = std::mem::replace(&mut first, false);
-            let Some(entry) = entry else { continue };
+            let entry = match super::quick_entry(&below, side, cell.t0, cell.t1, self.depth) {
+                Some(None) => continue,
+                Some(Some((t, tag))) => Entry {
+                    t,
+                    tag: Some(tag),
+                    inside_at_lo: false,
+                    rate: 0.0,
+                    since: t,
+                    span_end: t,
+                    span_end_rate: 0.0,
+                },
+                None => match cell_entry(&below, side, cell.t0, cell.t1, self.depth) {
+                    Some(e) => e,
+                    None => continue,
+                },
+            };
             // Hit point in the cell frame, snapped onto the surface (not onto the crossed
             // plane: within rounding of an edge the point may lie over the neighbouring facet,
             // and the surface is what the next ray's origin must be offset from).
             let t = entry.t;
             let probe = |dt: f64| {
                 let q = o + (t + dt) * d;
-                let (i, j) = (
-                    (q.x / self.period).floor() as i64,
-                    (q.y / self.period).floor() as i64,
-                );
+                let (i, j) = (floor_i64(q.x / self.period), floor_i64(q.y / self.period));
                 let (qx, qy) = (q.x - i as f64 * self.period, q.y - j as f64 * self.period);
                 ((i, j), self.surface(qx, qy).1 as u32)
             };
