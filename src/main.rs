@@ -26,6 +26,8 @@ enum Command {
     Materials(cli::materials::MaterialsArgs),
     /// Trace one textured, coated interface: R, T, film absorptance, light-path obliqueness.
     Surface(cli::surface::SurfaceArgs),
+    /// Run a scenario (or the embedded demo) and write a results folder with report.html.
+    Run(cli::run::RunArgs),
     /// Lambertian (4n²) limit, exact Lambertian, single and double pass references for a wafer.
     Limit(cli::limit::LimitArgs),
 }
@@ -37,6 +39,7 @@ fn main() -> ExitCode {
         Command::Film(args) => cli::film::run(args),
         Command::Materials(args) => cli::materials::run(args),
         Command::Surface(args) => cli::surface::run(args),
+        Command::Run(args) => cli::run::run(args),
         Command::Limit(args) => cli::limit::run(args),
     };
     match outcome {

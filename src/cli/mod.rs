@@ -5,6 +5,7 @@ pub mod film;
 pub mod limit;
 pub mod materials;
 pub mod progress;
+pub mod run;
 pub mod surface;
 
 /// Why a command failed, mapped to the process exit code.

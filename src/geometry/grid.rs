@@ -9,7 +9,7 @@
 //! "A fast voxel traversal algorithm for ray tracing", Eurographics '87, 3 (1987).
 //! Limits: at most `max_cells` cells are visited (the caller decides what that means).
 
-use super::Vec3;
+use super::{Vec3, floor_i64};
 
 /// One visited cell.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -32,6 +32,8 @@ pub struct GridWalk {
     oy: f64,
     dx: f64,
     dy: f64,
+    inv_dx: f64,
+    inv_dy: f64,
     i: i64,
     j: i64,
     step_i: i64,
@@ -46,10 +48,12 @@ pub struct GridWalk {
 
 impl GridWalk {
     /// Walk of the ray `o + t·d` over t ∈ [t_start, t_end] through cells of side `cell`.
+    #[inline(always)]
     pub fn new(o: Vec3, d: Vec3, cell: f64, t_start: f64, t_end: f64, max_cells: usize) -> Self {
         let p = o + t_start * d;
-        let i = (p.x / cell).floor() as i64;
-        let j = (p.y / cell).floor() as i64;
+        let inv_cell = 1.0 / cell;
+        let i = floor_i64(p.x * inv_cell);
+        let j = floor_i64(p.y * inv_cell);
         let step_i = if d.x > 0.0 { 1 } else { -1 };
         let step_j = if d.y > 0.0 { 1 } else { -1 };
         let mut w = GridWalk {
@@ -58,6 +62,8 @@ impl GridWalk {
             oy: o.y,
             dx: d.x,
             dy: d.y,
+            inv_dx: 1.0 / d.x,
+            inv_dy: 1.0 / d.y,
             i,
             j,
             step_i,
@@ -75,22 +81,22 @@ impl GridWalk {
     }
 
     /// Parameter where the ray crosses the next x boundary of the current cell.
-    #[inline]
+    #[inline(always)]
     fn boundary_i(&self) -> f64 {
         if self.dx == 0.0 {
             return f64::INFINITY;
         }
         let k = if self.step_i > 0 { self.i + 1 } else { self.i };
-        (k as f64 * self.cell - self.ox) / self.dx
+        (k as f64 * self.cell - self.ox) * self.inv_dx
     }
 
-    #[inline]
+    #[inline(always)]
     fn boundary_j(&self) -> f64 {
         if self.dy == 0.0 {
             return f64::INFINITY;
         }
         let k = if self.step_j > 0 { self.j + 1 } else { self.j };
-        (k as f64 * self.cell - self.oy) / self.dy
+        (k as f64 * self.cell - self.oy) * self.inv_dy
     }
 
     /// True when the walk stopped because it reached `max_cells` before `t_end`.
@@ -102,7 +108,7 @@ impl GridWalk {
 impl Iterator for GridWalk {
     type Item = GridCell;
 
-    #[inline]
+    #[inline(always)]
     fn next(&mut self) -> Option<GridCell> {
         if self.done || self.left == 0 {
             return None;

@@ -46,6 +46,13 @@ pub const fn gamma(n: u32) -> f64 {
     nu / (1.0 - nu)
 }
 
+/// ⌊x⌋ as an integer, without a libm call (exact for |x| < 2⁶³; NaN gives 0).
+#[inline(always)]
+pub fn floor_i64(x: f64) -> i64 {
+    let i = x as i64;
+    i - i64::from((i as f64) > x)
+}
+
 /// Builds an orthonormal basis (t1, t2, n) around a unit vector `n` without branches on
 /// near-parallel axes. Source: T. Duff et al., "Building an orthonormal basis, revisited",
 /// JCGT 6(1), 1 (2017).
@@ -63,6 +70,23 @@ pub fn orthonormal_basis(n: Vec3) -> (Vec3, Vec3) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn floor_matches_std() {
+        for x in [
+            -3.5,
+            -3.0,
+            -0.0,
+            0.0,
+            -1e-300,
+            1e-300,
+            2.999_999_999_999_999_6,
+            7.0,
+            -7.000_000_000_000_001,
+        ] {
+            assert_eq!(floor_i64(x), x.floor() as i64, "{x}");
+        }
+    }
 
     #[test]
     fn basis_is_orthonormal_for_many_normals() {

@@ -15,6 +15,7 @@ pub mod csv;
 pub mod files;
 pub mod html;
 pub mod plot;
+pub mod run_report;
 
 use std::path::PathBuf;
 

@@ -161,7 +161,7 @@ impl RunResult {
         let (j, se) = integrate(&g, &column(&|w| w.layers[absorber]));
         currents.push(Current { name: layer_names[absorber].clone(), j_ma_cm2: j, std_error_ma_cm2: se });
         let mut losses = Vec::new();
-        let mut push_loss = |name: String, x: Vec<Estimate>, losses: &mut Vec<Loss>| {
+        let push_loss = |name: String, x: Vec<Estimate>, losses: &mut Vec<Loss>| {
             let (j, se) = integrate(&g, &x);
             losses.push(Loss { name, j_ma_cm2: j, std_error_ma_cm2: se });
         };

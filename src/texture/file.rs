@@ -646,22 +646,22 @@ impl Ctx<'_> {
             None => (!self.raw.entries.iter().any(|e| e.key == "rotation_deg")).then_some(0.0),
         };
         let inverted = self.boolean("inverted", false);
-        if let (Some(b), Some(p), true) = (base, period, has_period) {
-            if p < b {
-                let span = self
-                    .raw
-                    .entries
-                    .iter()
-                    .find(|e| e.key == "period_um")
-                    .and_then(|e| e.value_span.clone());
-                self.problem_at(
-                    &span,
-                    format!("`period_um` = {p} µm is smaller than `base_um` = {b} µm"),
-                    "period_um ≥ base_um (the difference is a flat gap; pyramids may touch, not overlap)".into(),
-                    "increase period_um or reduce base_um".into(),
-                );
-                return None;
-            }
+        if let (Some(b), Some(p), true) = (base, period, has_period)
+            && p < b
+        {
+            let span = self
+                .raw
+                .entries
+                .iter()
+                .find(|e| e.key == "period_um")
+                .and_then(|e| e.value_span.clone());
+            self.problem_at(
+                &span,
+                format!("`period_um` = {p} µm is smaller than `base_um` = {b} µm"),
+                "period_um ≥ base_um (the difference is a flat gap; pyramids may touch, not overlap)".into(),
+                "increase period_um or reduce base_um".into(),
+            );
+            return None;
         }
         let spec = RegularPyramidsSpec {
             base_um: base?,
@@ -780,21 +780,21 @@ impl Ctx<'_> {
             Some("uniform") => {
                 let lo = self.required_length(keys[0], "random-pyramids");
                 let hi = self.required_length(keys[1], "random-pyramids");
-                if let (Some(a), Some(b)) = (lo, hi) {
-                    if b < a {
-                        let span = self
-                            .raw
-                            .entries
-                            .iter()
-                            .find(|e| e.key == keys[1])
-                            .and_then(|e| e.value_span.clone());
-                        self.problem_at(
-                            &span,
-                            format!("`{}` = {b} µm is below `{}` = {a} µm", keys[1], keys[0]),
-                            "maximum ≥ minimum".into(),
-                            "swap the two values".into(),
-                        );
-                    }
+                if let (Some(a), Some(b)) = (lo, hi)
+                    && b < a
+                {
+                    let span = self
+                        .raw
+                        .entries
+                        .iter()
+                        .find(|e| e.key == keys[1])
+                        .and_then(|e| e.value_span.clone());
+                    self.problem_at(
+                        &span,
+                        format!("`{}` = {b} µm is below `{}` = {a} µm", keys[1], keys[0]),
+                        "maximum ≥ minimum".into(),
+                        "swap the two values".into(),
+                    );
                 }
                 lo.zip(hi)
                     .map(|(min_um, max_um)| SizeDistribution::Uniform { min_um, max_um })

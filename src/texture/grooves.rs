@@ -8,11 +8,11 @@
 
 use super::{
     MAX_CELLS_PER_QUERY, SI_111_ANGLE_DEG, Side, Symmetry, Texture, TextureError, cell_entry,
-    clamp_into, facet_hit, ray_point_err, side_at_origin, side_outside_slab, slab_interval,
+    clamp_into, facet_hit, side_at_origin, side_outside_slab, slab_interval, snapped_err,
 };
 use crate::geometry::crossing::{Gap, HeightPlane, Span};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64};
 use crate::texture::pyramids::{check_angle, check_length};
 
 /// Relative padding of the slab searched for crossings.
@@ -27,6 +27,10 @@ pub struct VGrooves {
     planes: [HeightPlane; 2],
     normals: [Vec3; 2],
     pad: f64,
+    /// On-plane tolerance floor (see [`Gap::new`]), µm.
+    tol: f64,
+    /// Excursion depth tolerance (see [`super::cell_entry`]), µm.
+    depth: f64,
 }
 
 impl VGrooves {
@@ -56,6 +60,8 @@ impl VGrooves {
             planes,
             normals: planes.map(|p| p.normal()),
             pad: PAD_REL * (period_um + height),
+            tol: super::on_plane_tol((1.0 + tan_a) * period_um + 2.0 * height),
+            depth: super::depth_tol((1.0 + tan_a) * period_um + 2.0 * height),
         })
     }
 
@@ -72,11 +78,11 @@ impl VGrooves {
     #[inline]
     fn gaps(&self, o: Vec3, d: Vec3, i: i64, skip: Option<u32>) -> [Gap; 2] {
         let ol = Vec3::new(o.x - i as f64 * self.period, o.y, o.z);
-        let mut g = self.planes.map(|p| Gap::new(&p, ol, d));
-        if i == 0 {
-            if let Some(k) = skip {
-                g[k as usize] = g[k as usize].on_plane();
-            }
+        let mut g = self.planes.map(|p| Gap::new(&p, ol, d, self.tol));
+        if i == 0
+            && let Some(k) = skip
+        {
+            g[k as usize] = g[k as usize].on_plane();
         }
         g
     }
@@ -101,35 +107,57 @@ impl Texture for VGrooves {
         let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let skip = skip.map(|f| f.0).filter(|&k| k <= 1);
         let side = side_outside_slab(o.z, z_lo, z_hi)
-            .or_else(|| Side::leaving(Gap::new(&self.planes[skip? as usize], Vec3::ZERO, d).e))
+            .or_else(|| Side::leaving(Gap::new(&self.planes[skip? as usize], Vec3::ZERO, d, 0.0).e))
+            .or_else(|| {
+                let i = floor_i64(o.x / self.period);
+                let x = o.x - i as f64 * self.period;
+                let (z0, z1) = (self.planes[0].z_at(x, 0.0), self.planes[1].z_at(x, 0.0));
+                let plane = if z0 <= z1 {
+                    self.planes[0]
+                } else {
+                    self.planes[1]
+                };
+                let ol = Vec3::new(x, 0.0, o.z);
+                super::side_from_surface(ol, d, z0.min(z1), plane.z_err(x, 0.0), self.tol, &plane)
+            })
             .unwrap_or_else(|| {
-                let i = (o.x / self.period).floor() as i64;
+                let i = floor_i64(o.x / self.period);
                 side_at_origin(&Self::below_spans(&self.gaps(o, d, i, skip)))
             });
         // Walk along x only: the y component is dropped from the walk direction.
         let dx_only = Vec3::new(d.x, 0.0, d.z);
+        let mut first = true;
         for cell in GridWalk::new(o, dx_only, self.period, t_start, t_end, MAX_CELLS_PER_QUERY) {
             let g = self.gaps(o, d, cell.i, skip);
-            let Some(entry) = cell_entry(&Self::below_spans(&g), side, cell.t0, cell.t1) else {
-                continue;
-            };
+            let entry = cell_entry(&Self::below_spans(&g), side, cell.t0, cell.t1, self.depth);
+            let first_cell = std::mem::replace(&mut first, false);
+            let Some(entry) = entry else { continue };
+            // Hit point snapped onto the surface min(rising, falling).
             let t = entry.t;
+            let probe = |dt: f64| {
+                let q = o + (t + dt) * d;
+                let i = floor_i64(q.x / self.period);
+                let qx = q.x - i as f64 * self.period;
+                let (q0, q1) = (self.planes[0].z_at(qx, 0.0), self.planes[1].z_at(qx, 0.0));
+                (i, if q0 <= q1 { 0 } else { 1 })
+            };
+            let ok = |i: i64, k: u32| {
+                !(i == 0 && skip == Some(k)) && super::faces(side, d, self.normals[k as usize])
+            };
+            let delta = super::PROBE_REL * self.period;
+            let (ci, facet) = super::crossed_facet(&entry, first_cell, cell.i, delta, probe, ok);
             let p = o + t * d;
-            let (x, ex) = clamp_into(p.x - cell.i as f64 * self.period, self.period);
+            let (x, _) = clamp_into(p.x - ci as f64 * self.period, self.period);
             let fy = (p.y / self.period).floor() * self.period;
-            let (y, ey) = clamp_into(p.y - fy, self.period);
-            let facet = entry
-                .tag
-                .unwrap_or(if x < 0.5 * self.period { 0 } else { 1 });
-            let plane = self.planes[facet as usize];
-            let e = ray_point_err(o, d, t);
-            let (ex, ey) = (e.x + ex, e.y + ey);
-            let ez = plane.z_err(x, y) + plane.a.abs() * ex;
-            let point = Vec3::new(x, y, plane.z_at(x, y));
+            let (y, _) = clamp_into(p.y - fy, self.period);
+            let (z0, z1) = (self.planes[0].z_at(x, y), self.planes[1].z_at(x, y));
+            let active = if z0 <= z1 { 0 } else { 1 };
+            let point = Vec3::new(x, y, z0.min(z1));
+            let p_err = snapped_err(x, y, self.planes[active].z_err(x, y));
             return Some(facet_hit(
                 t,
                 point,
-                Vec3::new(ex, ey, ez),
+                p_err,
                 self.normals[facet as usize],
                 facet,
             ));

@@ -12,18 +12,31 @@
 //! optional flat gaps and rotation), [`VGrooves`], [`RandomPyramids`] (union of random upright
 //! pyramids on a periodic tile), [`HeightMap`] (triangulated grayscale image), and the ideal
 //! references [`IdealSpecular`] and [`IdealLambertian`] (contract in [`ideal`]). Files:
-//! [`from_file`] reads our TOML texture schema (see [`file`]).
+//! [`from_file`] reads our TOML texture schema (see [`mod@file`]).
 //!
-//! How crossings are found (all analytic textures): a 2D walk over the lattice cells the ray's
-//! xy projection crosses ([`crate::geometry::grid`]), and within each cell the first change of
+//! How crossings are found (every texture): a 2D walk over the lattice cells the ray's xy
+//! projection crosses ([`crate::geometry::grid`]), and within each cell the first change of
 //! side computed from one root per facet plane ([`crate::geometry::crossing`]). The side the
 //! ray starts on is, in order: above/below the slab `z_range_um()` if the origin lies outside
-//! it; the side `dir` points to relative to `skip` if given; otherwise the side the origin lies
-//! on (an origin on the surface within rounding error counts as leaving it along `dir`).
+//! it; the side `dir` points to relative to `skip` if given; the side of the surface the
+//! origin lies on; for an origin on the surface within rounding, the side `dir` points to
+//! relative to the facet owning that position.
+//!
+//! Robustness rules (tests: `tests/robustness.rs`): a hit point is snapped onto the surface
+//! and its `p_err` bounds its distance to it; a change of side counts only if the ray then
+//! gets deeper than a tolerance of ~10⁻¹⁵ of the feature size on the far side
+//! (`cell_entry`), so reported sides alternate along a ray and a ray through an edge,
+//! valley, tip or cell corner lands exactly once (net); the facet named for a crossing always
+//! faces the ray the right way (`crossed_facet`).
+//!
+//! For the tracer: start each new ray at
+//! `offset_origin(hit.point, hit.p_err, hit.normal, dir)`
+//! ([`crate::geometry::robust::offset_origin`]) and pass `Some(hit.facet)` as `skip`.
+//!
 //! Limits: a ray that would cross more than [`MAX_CELLS_PER_QUERY`] cells inside the slab
 //! (|dir.z| ≲ 10⁻⁵ over a textured surface) returns `None` although it is still inside the
-//! slab; the tracer can tell (its origin side and direction do not lead out of the slab) and
-//! should count it as lost.
+//! slab; the tracer can tell (its side and direction do not lead out of the slab) and should
+//! count it as lost.
 
 pub mod file;
 pub mod flipped;
@@ -40,8 +53,8 @@ pub use grooves::VGrooves;
 pub use heightmap::HeightMap;
 pub use ideal::{IdealLambertian, IdealSpecular, lambertian_direction};
 pub use planar::Planar;
-pub use pyramids::RegularPyramids;
-pub use random::{RandomPyramids, RandomPyramidsSpec, SizeDistribution};
+pub use pyramids::{RegularPyramids, RegularPyramidsSpec};
+pub use random::{Pyramid, RandomPyramids, RandomPyramidsSpec, SizeDistribution, SizeOf};
 
 use crate::geometry::crossing::{Entry, Span, first_in_union, first_outside_union};
 use crate::geometry::{FacetId, Hit, Vec3, gamma};
@@ -134,13 +147,13 @@ impl Side {
 }
 
 /// Parameter interval [t0, t1], t0 ≥ 0, where the ray's z lies in [z_lo, z_hi]; `None` if empty.
-#[inline]
+#[inline(always)]
 pub(crate) fn slab_interval(oz: f64, dz: f64, z_lo: f64, z_hi: f64) -> Option<(f64, f64)> {
     if dz == 0.0 {
         return (z_lo <= oz && oz <= z_hi).then_some((0.0, f64::INFINITY));
     }
-    let ta = (z_lo - oz) / dz;
-    let tb = (z_hi - oz) / dz;
+    let inv = 1.0 / dz;
+    let (ta, tb) = ((z_lo - oz) * inv, (z_hi - oz) * inv);
     let (t0, t1) = (ta.min(tb).max(0.0), ta.max(tb));
     (t0 <= t1).then_some((t0, t1))
 }
@@ -159,11 +172,192 @@ pub(crate) fn side_outside_slab(oz: f64, z_lo: f64, z_hi: f64) -> Option<Side> {
 
 /// First change of side within [lo, hi] for a cell whose below-surface set is the union of
 /// `below`: entering it from above, or leaving it from below.
-#[inline]
-pub(crate) fn cell_entry(below: &[Span], side: Side, lo: f64, hi: f64) -> Option<Entry> {
+///
+/// A change of side counts only if the ray then gets deeper than `depth_tol` (µm) on the far
+/// side. Shallower excursions arise where two cells' rounded planes disagree at their common
+/// wall, where an origin offset along one facet's normal grazes the neighbouring facet at a
+/// valley, where a ray leaves its first cell through a vertex, or where a ray skims an edge
+/// within rounding. One that comes back within the cell is skipped both ways, so the sides
+/// reported along a ray always alternate; one still shallow at the cell's end is left to the
+/// next cell, which sees the ray afresh (a real crossing near a wall is then reported there,
+/// at most `depth_tol` from the surface). Depth bound: see [`excursion_depth`].
+#[inline(always)]
+pub(crate) fn cell_entry(
+    below: &[Span],
+    side: Side,
+    lo: f64,
+    hi: f64,
+    depth_tol: f64,
+) -> Option<Entry> {
+    let mut from = lo;
+    for _ in 0..16 {
+        let e = match side {
+            Side::Above => first_in_union(below, from, hi),
+            Side::Below => first_outside_union(below, from, hi),
+        };
+        let e = e?;
+        // Fast acceptance: a crossing inside the cell into a span that alone keeps the ray on
+        // the far side deep enough (entries at the cell's wall always get the full check).
+        if !e.inside_at_lo && excursion_depth(&e, e.span_end.min(hi), e.span_end_rate) > depth_tol {
+            return Some(e);
+        }
+        let back = match side {
+            Side::Above => first_outside_union(below, e.t, hi),
+            Side::Below => first_in_union(below, e.t, hi),
+        };
+        let (until, rate_back) = back.map_or((hi, f64::INFINITY), |b| (b.t, b.rate));
+        if excursion_depth(&e, until, rate_back) > depth_tol {
+            return Some(e);
+        }
+        from = back?.t;
+    }
+    None // the ray runs along the surface within rounding: no crossing here
+}
+
+/// Quick decision for a cell, equivalent to [`cell_entry`] where it answers:
+/// `Some(Some((t, tag)))` a crossing strictly inside the cell after which the ray goes clearly
+/// deeper than the tolerance, `Some(None)` clearly no crossing, `None` undecided (the ray is
+/// on the far side at the cell's entry, or the excursion may be shallow: use `cell_entry`).
+#[inline(always)]
+pub(crate) fn quick_entry(
+    below: &[Span],
+    side: Side,
+    lo: f64,
+    hi: f64,
+    depth_tol: f64,
+) -> Option<Option<(f64, u32)>> {
+    let deep = 4.0 * depth_tol;
     match side {
-        Side::Above => first_in_union(below, lo, hi),
-        Side::Below => first_outside_union(below, lo, hi),
+        Side::Above => {
+            // Outside every span at lo; the earliest start in (lo, hi].
+            let mut best: Option<&Span> = None;
+            for s in below {
+                if s.start <= lo && lo < s.end {
+                    return None;
+                }
+                if s.start > lo
+                    && s.start < s.end
+                    && s.start <= hi
+                    && best.is_none_or(|b| s.start < b.start)
+                {
+                    best = Some(s);
+                }
+            }
+            let Some(s) = best else { return Some(None) };
+            let depth = s.start_rate.min(s.end_rate) * (s.end.min(hi) - s.start);
+            (depth > deep).then_some(Some((s.start, s.start_tag)))
+        }
+        Side::Below => {
+            // Inside a span at lo; push t through the spans containing it.
+            let mut t = lo;
+            let (mut tag, mut rate) = (u32::MAX, 0.0);
+            for _ in 0..below.len() {
+                let mut moved = false;
+                for s in below {
+                    if s.start < t && t < s.end {
+                        (t, tag, rate, moved) = (s.end, s.end_tag, s.end_rate, true);
+                    }
+                }
+                if !moved {
+                    break;
+                }
+            }
+            if tag == u32::MAX {
+                return None;
+            }
+            if t > hi {
+                return Some(None);
+            }
+            // Outside from t until the next start after it.
+            let (mut back, mut back_rate) = (hi, f64::INFINITY);
+            for s in below {
+                if s.start > t && s.start < s.end && s.start < back {
+                    (back, back_rate) = (s.start, s.start_rate);
+                }
+            }
+            let depth = rate.min(back_rate) * (back - t);
+            (depth > deep).then_some(Some((t, tag)))
+        }
+    }
+}
+
+/// Upper bound on how deep the ray gets on the far side between crossing `e` and time
+/// `until`, where it comes back through a plane with |dG/dt| = `rate_back` (∞ if it does not
+/// come back), µm. On the far side since `e.since` through a plane with rate `e.rate`, the
+/// ray at time t is within e.rate·(t − e.since) of that plane and within
+/// rate_back·(until − t) of the other.
+#[inline(always)]
+pub(crate) fn excursion_depth(e: &Entry, until: f64, rate_back: f64) -> f64 {
+    let from_entry = if e.since.is_finite() {
+        e.rate * (until - e.since)
+    } else {
+        f64::INFINITY
+    };
+    from_entry.min(rate_back * (until - e.t))
+}
+
+/// Names the facet of a crossing and the cell it is reported in.
+///
+/// A crossing found inside a cell carries the plane it crossed, which faces the ray the right
+/// way by construction. A ray found already on the far side at a cell's wall (or at its
+/// origin) crossed within rounding of that point; candidates are then, in order: the facet
+/// under the ray just before (`probe(−δ)`, the one it was approaching, located at the point),
+/// the set's bounding plane (`entry.tag`, right-facing by construction but possibly not at the
+/// point), the facet just after (`probe(+δ)`). The first that faces the ray the right way and
+/// is not the facet being left (`ok`) is taken.
+#[inline(always)]
+pub(crate) fn crossed_facet<C: Copy>(
+    entry: &Entry,
+    first_cell: bool,
+    here: C,
+    delta: f64,
+    probe: impl Fn(f64) -> (C, u32),
+    ok: impl Fn(C, u32) -> bool,
+) -> (C, u32) {
+    if !entry.inside_at_lo
+        && let Some(k) = entry.tag
+    {
+        return (here, k);
+    }
+    let back = (!first_cell).then(|| probe(-delta));
+    let tagged = entry.tag.map(|k| (here, k));
+    let ahead = probe(delta);
+    [back, tagged, Some(ahead)]
+        .into_iter()
+        .flatten()
+        .find(|&(c, k)| ok(c, k))
+        .or(tagged)
+        .unwrap_or(ahead)
+}
+
+/// True when a facet with up normal `n` is met from `side` by a ray along `d` (d·n < 0 from
+/// above, > 0 from below).
+#[inline]
+pub(crate) fn faces(side: Side, d: Vec3, n: Vec3) -> bool {
+    match side {
+        Side::Above => d.dot(n) < 0.0,
+        Side::Below => d.dot(n) > 0.0,
+    }
+}
+
+/// Side of an origin inside the slab from the surface under it: by the sign of o_z − z_surf
+/// when that exceeds the rounding bound `z_err` plus the tolerance floor `tol`; otherwise the
+/// origin is on the surface and the ray is on the side `d` points to relative to the facet
+/// owning the origin's position (plane `owner`). `None` if the ray runs along that facet.
+#[inline]
+pub(crate) fn side_from_surface(
+    o: Vec3,
+    d: Vec3,
+    z_surf: f64,
+    z_err: f64,
+    tol: f64,
+    owner: &crate::geometry::crossing::HeightPlane,
+) -> Option<Side> {
+    let g = o.z - z_surf;
+    if g.abs() > z_err + tol + gamma(2) * o.z.abs() {
+        Some(if g > 0.0 { Side::Above } else { Side::Below })
+    } else {
+        Side::leaving(d.z - (owner.a * d.x + owner.b * d.y))
     }
 }
 
@@ -177,6 +371,28 @@ pub(crate) fn side_at_origin(below: &[Span]) -> Side {
     }
 }
 
+/// Probe distance δ of [`crossed_facet`], relative to the texture's feature size: far beyond
+/// the rounding of a crossing point and far below any facet size.
+pub(crate) const PROBE_REL: f64 = 1e-12;
+
+/// Floor of the on-plane tolerance of [`Gap::new`](crate::geometry::crossing::Gap::new) for a
+/// texture whose plane terms (|a·x|, |b·y|, |w|, |z| in the frames it uses) sum to at most
+/// `scale` µm: covers the rounding of moving a point between frames (lattice rotation, tile
+/// shifts), which the per-gap bound computed in one frame does not see.
+#[inline]
+pub(crate) fn on_plane_tol(scale: f64) -> f64 {
+    gamma(4) * scale
+}
+
+/// Depth below which an excursion to the far side does not count ([`cell_entry`]): above the
+/// disagreement of neighbouring cells' rounded planes at their wall and above how far an
+/// origin offset from a hit of this texture ([`crate::geometry::robust::offset_origin`],
+/// error box γ₃-sized in the same terms) can reach into a neighbouring facet.
+#[inline]
+pub(crate) fn depth_tol(scale: f64) -> f64 {
+    gamma(16) * scale
+}
+
 /// Clamps a local coordinate into [0, period) and returns it with the amount moved.
 #[inline]
 pub(crate) fn clamp_into(x: f64, period: f64) -> (f64, f64) {
@@ -184,11 +400,12 @@ pub(crate) fn clamp_into(x: f64, period: f64) -> (f64, f64) {
     (c, (c - x).abs())
 }
 
-/// Rounding-error bound of each coordinate of o + t·d (one product and one sum per coordinate,
-/// plus one subtraction of a cell offset), µm.
+/// Error box of a hit point snapped onto the surface: its height was evaluated from the facet
+/// planes at the (rounded) x, y with error bound `z_err`, so the point lies on the surface
+/// within `z_err` vertically; x and y carry only their own representation error.
 #[inline]
-pub(crate) fn ray_point_err(o: Vec3, d: Vec3, t: f64) -> Vec3 {
-    gamma(4) * (o.abs() + (t * d).abs())
+pub(crate) fn snapped_err(x: f64, y: f64, z_err: f64) -> Vec3 {
+    Vec3::new(gamma(1) * x.abs(), gamma(1) * y.abs(), z_err)
 }
 
 /// A [`Hit`] in the local frame of the unit cell, before any rotation back to the lab frame.

@@ -27,11 +27,16 @@ impl Planar {
     }
 }
 
+/// On-plane tolerance of the plane (see [`Gap::new`]), µm.
+fn gap_tol() -> f64 {
+    super::on_plane_tol(PLANAR_CELL_UM)
+}
+
 /// Crossing of the plane z = 0, shared by [`Planar`] and the ideal surfaces.
 pub(crate) fn intersect_plane(origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit> {
     let (z_lo, z_hi) = (-PAD_UM, PAD_UM);
     let (t0, t1) = slab_interval(origin.z, dir.z, z_lo, z_hi)?;
-    let mut gap = Gap::new(&HeightPlane::GROUND, origin, dir);
+    let mut gap = Gap::new(&HeightPlane::GROUND, origin, dir, gap_tol());
     if skip == Some(FacetId(0)) {
         gap = gap.on_plane();
     }
@@ -45,7 +50,7 @@ pub(crate) fn intersect_plane(origin: Vec3, dir: Vec3, skip: Option<FacetId>) ->
             }
         })
         .unwrap_or_else(|| side_at_origin(&below));
-    let entry = cell_entry(&below, side, t0, t1)?;
+    let entry = cell_entry(&below, side, t0, t1, super::depth_tol(PLANAR_CELL_UM))?;
     let t = entry.t;
     let p = origin + t * dir;
     // Wrap into the nominal cell: one subtraction of a multiple of the period.

@@ -17,11 +17,13 @@
 
 use super::{
     MAX_CELLS_PER_QUERY, SI_111_ANGLE_DEG, Side, Symmetry, Texture, TextureError, cell_entry,
-    clamp_into, facet_hit, ray_point_err, side_at_origin, side_outside_slab, slab_interval,
+    clamp_into, crossed_facet, facet_hit, side_at_origin, side_outside_slab, slab_interval,
+    snapped_err,
 };
-use crate::geometry::crossing::{Gap, HeightPlane, Span};
+use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3, gamma};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
+use crate::texture::{PROBE_REL, on_plane_tol};
 
 /// Id of the flat base plane.
 pub const FLAT_FACET: u32 = 4;
@@ -73,7 +75,6 @@ pub struct RegularPyramids {
     spec: RegularPyramidsSpec,
     period: f64,
     height: f64,
-    half_base: f64,
     centre: f64,
     planes: [HeightPlane; 5],
     /// Up normals in the lab frame.
@@ -82,6 +83,10 @@ pub struct RegularPyramids {
     cos_r: f64,
     sin_r: f64,
     pad: f64,
+    /// On-plane tolerance floor (see [`Gap::new`]), µm.
+    tol: f64,
+    /// Excursion depth tolerance (see [`super::cell_entry`]), µm.
+    depth: f64,
 }
 
 /// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
@@ -196,7 +201,6 @@ impl RegularPyramids {
             spec,
             period: spec.period_um,
             height,
-            half_base,
             centre,
             planes,
             normals,
@@ -204,6 +208,8 @@ impl RegularPyramids {
             cos_r,
             sin_r,
             pad: PAD_REL * (spec.period_um + height),
+            tol: on_plane_tol((1.0 + tan_a) * spec.period_um + 2.0 * height),
+            depth: super::depth_tol((1.0 + tan_a) * spec.period_um + 2.0 * height),
         })
     }
 
@@ -242,24 +248,35 @@ impl RegularPyramids {
         }
     }
 
-    /// The facet owning cell coordinates (x, y): the sector of the larger offset from the
-    /// centre, or the flat plane outside the base square (ties go to x, and to +).
+    /// Surface height at cell coordinates (x, y) from the five planes, and the plane giving it
+    /// (upright: max(0, min faces); inverted: min(0, max faces)).
     #[inline]
-    fn facet_at(&self, x: f64, y: f64) -> u32 {
-        let (dx, dy) = (x - self.centre, y - self.centre);
-        if dx.abs().max(dy.abs()) >= self.half_base {
-            FLAT_FACET
-        } else if dx.abs() >= dy.abs() {
-            if dx >= 0.0 { 0 } else { 1 }
-        } else if dy >= 0.0 {
-            2
+    fn surface(&self, x: f64, y: f64) -> (f64, usize) {
+        let inv = self.spec.inverted;
+        let mut face = (
+            if inv {
+                f64::NEG_INFINITY
+            } else {
+                f64::INFINITY
+            },
+            0,
+        );
+        for (k, p) in self.planes[..4].iter().enumerate() {
+            let z = p.z_at(x, y);
+            if (inv && z > face.0) || (!inv && z < face.0) {
+                face = (z, k);
+            }
+        }
+        let on_face = if inv { face.0 < 0.0 } else { face.0 > 0.0 };
+        if on_face {
+            face
         } else {
-            3
+            (0.0, FLAT_FACET as usize)
         }
     }
 
     /// The below-surface set of one cell as a union of spans of t.
-    #[inline]
+    #[inline(always)]
     fn below_spans(&self, g: &[Gap; 5]) -> [Span; 2] {
         let ground = g[4].below(FLAT_FACET);
         if self.spec.inverted {
@@ -273,25 +290,39 @@ impl RegularPyramids {
             if cone.is_empty() {
                 return [ground, Span::EMPTY];
             }
+            let cut_first = cone.start < ground.end;
             let first = Span {
                 start: ground.start,
                 end: ground.end.min(cone.start),
                 start_tag: ground.start_tag,
-                end_tag: if cone.start < ground.end {
+                end_tag: if cut_first {
                     cone.start_tag
                 } else {
                     ground.end_tag
                 },
+                start_rate: ground.start_rate,
+                end_rate: if cut_first {
+                    cone.start_rate
+                } else {
+                    ground.end_rate
+                },
             };
+            let cut_second = cone.end > ground.start;
             let second = Span {
                 start: ground.start.max(cone.end),
                 end: ground.end,
-                start_tag: if cone.end > ground.start {
+                start_tag: if cut_second {
                     cone.end_tag
                 } else {
                     ground.start_tag
                 },
                 end_tag: ground.end_tag,
+                start_rate: if cut_second {
+                    cone.end_rate
+                } else {
+                    ground.start_rate
+                },
+                end_rate: ground.end_rate,
             };
             [first, second]
         } else {
@@ -306,18 +337,26 @@ impl RegularPyramids {
     }
 
     /// Gaps of the ray to the five planes of cell (i, j), with the leaving facet pinned.
-    #[inline]
-    fn gaps(&self, o: Vec3, d: Vec3, i: i64, j: i64, skip: Option<u32>) -> [Gap; 5] {
-        let ol = Vec3::new(
-            o.x - i as f64 * self.period,
-            o.y - j as f64 * self.period,
-            o.z,
-        );
-        let mut g = self.planes.map(|p| Gap::new(&p, ol, d));
-        match skip {
-            Some(FLAT_FACET) => g[4] = g[4].on_plane(),
-            Some(k) if i == 0 && j == 0 => g[k as usize] = g[k as usize].on_plane(),
-            _ => {}
+    #[inline(always)]
+    fn gaps(
+        &self,
+        o: Vec3,
+        faces: &SquareFaces,
+        ground: Gap,
+        i: i64,
+        j: i64,
+        skip: Option<u32>,
+    ) -> [Gap; 5] {
+        let dx = (o.x - i as f64 * self.period) - self.centre;
+        let dy = (o.y - j as f64 * self.period) - self.centre;
+        let [g0, g1, g2, g3] = faces.gaps(dx, dy, o.z, self.height, self.tol);
+        let mut g = [g0, g1, g2, g3, ground];
+        if let Some(k) = skip
+            && k < FLAT_FACET
+            && i == 0
+            && j == 0
+        {
+            g[k as usize] = g[k as usize].on_plane();
         }
         g
     }
@@ -351,60 +390,85 @@ impl Texture for RegularPyramids {
         let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
         let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+        let tan_a = self.planes[1].a.abs();
+        let faces = SquareFaces::new(tan_a, d, self.spec.inverted);
+        // The base plane is the same in every cell.
+        let mut ground = Gap::new(&HeightPlane::GROUND, o, d, self.tol);
+        if skip == Some(FLAT_FACET) {
+            ground = ground.on_plane();
+        }
 
         // Side the ray starts on.
         let side = side_outside_slab(o.z, z_lo, z_hi)
+            .or_else(|| Side::leaving(Gap::new(&self.planes[skip? as usize], Vec3::ZERO, d, 0.0).e))
             .or_else(|| {
-                let k = skip?;
-                Side::leaving(Gap::new(&self.planes[k as usize], Vec3::ZERO, d).e)
+                let (i, j) = (floor_i64(o.x / self.period), floor_i64(o.y / self.period));
+                let (x, y) = (o.x - i as f64 * self.period, o.y - j as f64 * self.period);
+                let (z, k) = self.surface(x, y);
+                let plane = self.planes[k];
+                let ol = Vec3::new(x, y, o.z);
+                super::side_from_surface(ol, d, z, plane.z_err(x, y), self.tol, &plane)
             })
             .unwrap_or_else(|| {
-                let (i, j) = (
-                    (o.x / self.period).floor() as i64,
-                    (o.y / self.period).floor() as i64,
-                );
-                side_at_origin(&self.below_spans(&self.gaps(o, d, i, j, skip)))
+                let (i, j) = (floor_i64(o.x / self.period), floor_i64(o.y / self.period));
+                side_at_origin(&self.below_spans(&self.gaps(o, &faces, ground, i, j, skip)))
             });
 
         // Walk the lattice cells until the ray changes side.
-        let mut walk = GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY);
-        for cell in walk.by_ref() {
-            let g = self.gaps(o, d, cell.i, cell.j, skip);
-            let Some(entry) = cell_entry(&self.below_spans(&g), side, cell.t0, cell.t1) else {
-                continue;
+        let mut first = true;
+        for cell in GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY) {
+            let g = self.gaps(o, &faces, ground, cell.i, cell.j, skip);
+            let below = self.below_spans(&g);
+            let first_cell = std::mem::replace(&mut first, false);
+            let entry = match super::quick_entry(&below, side, cell.t0, cell.t1, self.depth) {
+                Some(None) => continue,
+                Some(Some((t, tag))) => Entry {
+                    t,
+                    tag: Some(tag),
+                    inside_at_lo: false,
+                    rate: 0.0,
+                    since: t,
+                    span_end: t,
+                    span_end_rate: 0.0,
+                },
+                None => match cell_entry(&below, side, cell.t0, cell.t1, self.depth) {
+                    Some(e) => e,
+                    None => continue,
+                },
             };
-            // Hit point in the cell frame, snapped onto the facet plane.
+            // Hit point in the cell frame, snapped onto the surface (not onto the crossed
+            // plane: within rounding of an edge the point may lie over the neighbouring facet,
+            // and the surface is what the next ray's origin must be offset from).
             let t = entry.t;
-            let (cx, cy) = (cell.i as f64 * self.period, cell.j as f64 * self.period);
+            let probe = |dt: f64| {
+                let q = o + (t + dt) * d;
+                let (i, j) = (floor_i64(q.x / self.period), floor_i64(q.y / self.period));
+                let (qx, qy) = (q.x - i as f64 * self.period, q.y - j as f64 * self.period);
+                ((i, j), self.surface(qx, qy).1 as u32)
+            };
+            let ok = |c: (i64, i64), k: u32| {
+                let left = skip == Some(k) && (k == FLAT_FACET || c == (0, 0));
+                !left && super::faces(side, d, self.planes[k as usize].normal())
+            };
+            let delta = PROBE_REL * self.period;
+            let ((ci, cj), facet) =
+                crossed_facet(&entry, first_cell, (cell.i, cell.j), delta, probe, ok);
+            let (cx, cy) = (ci as f64 * self.period, cj as f64 * self.period);
             let p = o + t * d;
-            let (x, ex) = clamp_into(p.x - cx, self.period);
-            let (y, ey) = clamp_into(p.y - cy, self.period);
-            let facet = entry.tag.unwrap_or_else(|| self.facet_at(x, y));
-            let plane = self.planes[facet as usize];
-            let z = plane.z_at(x, y);
-            let e = ray_point_err(o, d, t);
-            let (ex, ey) = (e.x + ex, e.y + ey);
-            let ez = plane.z_err(x, y) + plane.a.abs() * ex + plane.b.abs() * ey;
+            let (x, _) = clamp_into(p.x - cx, self.period);
+            let (y, _) = clamp_into(p.y - cy, self.period);
+            let (z, active) = self.surface(x, y);
+            let err = snapped_err(x, y, self.planes[active].z_err(x, y));
             let (point, p_err) = if self.rotated {
                 let (c, s) = (self.cos_r, self.sin_r);
                 let point = Vec3::new(c * x - s * y, s * x + c * y, z);
                 let rot_err = gamma(3) * (x.abs() + y.abs());
-                let err = Vec3::new(
-                    c.abs() * ex + s.abs() * ey + rot_err,
-                    s.abs() * ex + c.abs() * ey + rot_err,
-                    ez,
-                );
-                (point, err)
+                (point, Vec3::new(rot_err, rot_err, err.z))
             } else {
-                (Vec3::new(x, y, z), Vec3::new(ex, ey, ez))
+                (Vec3::new(x, y, z), err)
             };
-            return Some(facet_hit(
-                t,
-                point,
-                p_err,
-                self.normals[facet as usize],
-                facet,
-            ));
+            let normal = self.normals[facet as usize];
+            return Some(facet_hit(t, point, p_err, normal, facet));
         }
         None
     }

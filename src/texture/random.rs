@@ -34,11 +34,11 @@
 
 use super::{
     MAX_CELLS_PER_QUERY, SI_111_ANGLE_DEG, Side, Symmetry, Texture, TextureError, cell_entry,
-    clamp_into, facet_hit, ray_point_err, side_at_origin, side_outside_slab, slab_interval,
+    clamp_into, facet_hit, side_at_origin, side_outside_slab, slab_interval, snapped_err,
 };
-use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span};
+use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64};
 use crate::sampling::Stream;
 use crate::texture::pyramids::{check_angle, check_length};
 
@@ -49,7 +49,7 @@ pub const GENERATION_KEY: u64 = 0x7270_7972;
 pub const GROUND_FACET: u32 = 0;
 
 /// Most pyramids one grid cell may list (the grid is refined until this holds).
-const MAX_PER_CELL: usize = 48;
+const MAX_PER_CELL: usize = 24;
 
 /// Grid cell side as a fraction of the mean base (a few pyramids per cell).
 const CELL_PER_MEAN_BASE: f64 = 0.35;
@@ -206,6 +206,14 @@ pub struct RandomPyramids {
     cell_z: Vec<[f64; 2]>,
     z_max: f64,
     pad: f64,
+    /// On-plane tolerance floor (see [`Gap::new`]), µm.
+    tol: f64,
+    /// Excursion depth tolerance (see [`super::cell_entry`]), µm.
+    depth: f64,
+    /// Steepest facet slope (tan α).
+    max_tan: f64,
+    /// The facet slope tan α shared by all pyramids, if there is no angle spread.
+    common_tan: Option<f64>,
     coverage: f64,
 }
 
@@ -379,11 +387,21 @@ impl RandomPyramids {
             cell_z: Vec::new(),
             z_max: 0.0,
             pad: 0.0,
+            tol: 0.0,
+            depth: 0.0,
+            max_tan: 0.0,
+            common_tan: None,
             coverage: 0.0,
         };
         tex.build_images();
         tex.z_max = tex.images.iter().map(|im| im.height).fold(0.0, f64::max);
         tex.pad = PAD_REL * (tile + tex.z_max);
+        tex.max_tan = tex.images.iter().map(|im| im.tan_a).fold(0.0, f64::max);
+        let first_tan = tex.images.first().map(|im| im.tan_a);
+        tex.common_tan = first_tan.filter(|&t| tex.images.iter().all(|im| im.tan_a == t));
+        let scale = (1.0 + 3.0 * tex.max_tan) * tile + 2.0 * tex.z_max;
+        tex.tol = super::on_plane_tol(scale);
+        tex.depth = super::depth_tol(scale);
         let mean_base =
             tex.pyramids.iter().map(|p| p.base_um).sum::<f64>() / tex.pyramids.len() as f64;
         let mut n = ((tile / (CELL_PER_MEAN_BASE * mean_base)).ceil() as i64).max(1);
@@ -529,6 +547,7 @@ impl RandomPyramids {
                 .map(|it| self.images[it.image as usize].range_over(x0, x1, y0, y1).1)
                 .fold(0.0, f64::max);
             list.retain(|it| it.top >= floor - margin);
+            self.prune_dominated(list, [x0, x1, y0, y1]);
             list.sort_by(|a, b| b.top.total_cmp(&a.top));
             if list.len() > MAX_PER_CELL {
                 return false;
@@ -545,6 +564,46 @@ impl RandomPyramids {
         self.items = items;
         self.cell_z = cell_z;
         true
+    }
+
+    /// Removes from a cell's list the pyramids that lie below the envelope of the others (or
+    /// the base plane) everywhere in the cell rectangle `r` = [x0, x1, y0, y1].
+    ///
+    /// Proof by sampling with a Lipschitz margin: each cone h = H − tan α·‖p − c‖∞ changes
+    /// by at most tan α·ρ within ∞-distance ρ of a point, so on a sub-square of ∞-radius ρ
+    /// around sample s, pyramid j is at most h_j(s) + tan α_j·ρ and the others' envelope at
+    /// least max(0, maxᵢ hᵢ(s) − tan αᵢ·ρ). If the first never exceeds the second, j is never
+    /// on the surface in the cell. Conservative: a pyramid that only touches the envelope is
+    /// kept. Lowest candidates are tested first, against those still kept.
+    fn prune_dominated(&self, list: &mut Vec<Item>, r: [f64; 4]) {
+        const M: usize = 8;
+        let (sx, sy) = ((r[1] - r[0]) / M as f64, (r[3] - r[2]) / M as f64);
+        let rho = 0.5 * sx.max(sy);
+        let margin = self.pad;
+        list.sort_by(|a, b| a.top.total_cmp(&b.top));
+        let mut k = 0;
+        while k < list.len() {
+            let j = list[k].image as usize;
+            let dominated = (0..M * M).all(|q| {
+                let x = r[0] + (q % M) as f64 * sx + 0.5 * sx;
+                let y = r[2] + (q / M) as f64 * sy + 0.5 * sy;
+                let mine = self.images[j].cone_at(x, y).0 + self.images[j].tan_a * rho;
+                let others = list
+                    .iter()
+                    .filter(|it| it.image as usize != j)
+                    .map(|it| {
+                        let im = &self.images[it.image as usize];
+                        im.cone_at(x, y).0 - im.tan_a * rho
+                    })
+                    .fold(0.0, f64::max);
+                mine + margin < others
+            });
+            if dominated {
+                list.remove(k);
+            } else {
+                k += 1;
+            }
+        }
     }
 
     /// The parameters this tile was generated from.
@@ -597,8 +656,8 @@ impl RandomPyramids {
     pub fn surface_at(&self, x: f64, y: f64) -> (f64, FacetId) {
         let x = x.rem_euclid(self.tile);
         let y = y.rem_euclid(self.tile);
-        let li = ((x / self.cell).floor() as i64).clamp(0, self.grid_n - 1);
-        let lj = ((y / self.cell).floor() as i64).clamp(0, self.grid_n - 1);
+        let li = floor_i64(x / self.cell).clamp(0, self.grid_n - 1);
+        let lj = floor_i64(y / self.cell).clamp(0, self.grid_n - 1);
         let (z, f) = self.envelope(self.cell_items(li, lj).0, x, y);
         (z, FacetId(f))
     }
@@ -663,17 +722,41 @@ impl RandomPyramids {
     /// Below-surface interval of pyramid image `image` along the ray (origin `ol` in the tile
     /// frame), with face `pin` declared as the plane the ray leaves.
     #[inline]
-    fn cone_span(&self, image: u32, ol: Vec3, d: Vec3, pin: Option<u32>) -> Span {
+    fn cone_span(&self, image: u32, ol: Vec3, faces: &FaceSlopes, pin: Option<u32>) -> Span {
         let im = &self.images[image as usize];
-        let mut span = Span::ALL;
-        for (k, p) in im.planes.iter().enumerate() {
-            let mut g = Gap::new(p, ol, d);
-            if pin == Some(k as u32) {
-                g = g.on_plane();
+        let own;
+        let f = match &faces.common {
+            Some(c) if c.tan() == im.tan_a => c,
+            _ => {
+                own = SquareFaces::new(im.tan_a, faces.d, false);
+                &own
             }
-            span = span.and(g.below(1 + 4 * image + k as u32));
+        };
+        let mut g = f.gaps(ol.x - im.cx, ol.y - im.cy, ol.z, im.height, self.tol);
+        if let Some(k) = pin {
+            g[k as usize] = g[k as usize].on_plane();
         }
-        span
+        let tag = 1 + 4 * image;
+        g[0].below(tag)
+            .and(g[1].below(tag + 1))
+            .and(g[2].below(tag + 2))
+            .and(g[3].below(tag + 3))
+    }
+}
+
+/// Face slopes along a ray, shared by every pyramid with the common facet angle (set up once
+/// per ray).
+struct FaceSlopes {
+    d: Vec3,
+    common: Option<SquareFaces>,
+}
+
+impl FaceSlopes {
+    fn new(d: Vec3, common_tan: Option<f64>) -> FaceSlopes {
+        FaceSlopes {
+            d,
+            common: common_tan.map(|t| SquareFaces::new(t, d, false)),
+        }
     }
 }
 
@@ -714,94 +797,173 @@ impl Texture for RandomPyramids {
                 ti == 0 && tj == 0,
             )
         };
-        let mut ground = Gap::new(&HeightPlane::GROUND, o, d);
+        let mut ground = Gap::new(&HeightPlane::GROUND, o, d, self.tol);
         if skip == Some(GROUND_FACET) {
             ground = ground.on_plane();
         }
         let ground_span = ground.below(GROUND_FACET);
-        let mut spans = [Span::EMPTY; MAX_PER_CELL + 1];
+        let slopes = FaceSlopes::new(d, self.common_tan);
+        // Span buffer, filled only where all spans of a cell are needed.
+        let mut buf: Option<[Span; MAX_PER_CELL + 1]> = None;
 
         // Side the ray starts on.
         let side = side_outside_slab(o.z, z_lo, z_hi)
             .or_else(|| {
                 let (plane, _) = self.facet_plane(skip?);
-                Side::leaving(Gap::new(&plane, Vec3::ZERO, d).e)
+                Side::leaving(Gap::new(&plane, Vec3::ZERO, d, 0.0).e)
+            })
+            .or_else(|| {
+                let gi = floor_i64(o.x / self.cell);
+                let gj = floor_i64(o.y / self.cell);
+                let (li, lj, _, ol, _) = locate(gi, gj);
+                let (items, _) = self.cell_items(li, lj);
+                let (z, f) = self.envelope(items, ol.x, ol.y);
+                let (plane, _) = self.facet_plane(f);
+                super::side_from_surface(ol, d, z, plane.z_err(ol.x, ol.y), self.tol, &plane)
             })
             .unwrap_or_else(|| {
-                let gi = (o.x / self.cell).floor() as i64;
-                let gj = (o.y / self.cell).floor() as i64;
+                let gi = floor_i64(o.x / self.cell);
+                let gj = floor_i64(o.y / self.cell);
                 let (li, lj, _, ol, zero) = locate(gi, gj);
                 let (items, _) = self.cell_items(li, lj);
+                let spans = buf.get_or_insert([Span::EMPTY; MAX_PER_CELL + 1]);
                 spans[0] = ground_span;
                 for (m, it) in items.iter().enumerate() {
-                    spans[m + 1] = self.cone_span(it.image, ol, d, pinned(skip, it.image, zero));
+                    spans[m + 1] =
+                        self.cone_span(it.image, ol, &slopes, pinned(skip, it.image, zero));
                 }
                 side_at_origin(&spans[..items.len() + 1])
             });
 
         let margin = self.pad;
+        let mut first = true;
         for cell in GridWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY) {
-            let (li, lj, [tx, ty], ol, zero) = locate(cell.i, cell.j);
+            let first_cell = std::mem::replace(&mut first, false);
+            let (li, lj, _, ol, zero) = locate(cell.i, cell.j);
             let (items, [z_floor, z_top]) = self.cell_items(li, lj);
             let (za, zb) = (o.z + cell.t0 * d.z, o.z + cell.t1 * d.z);
             // Skip cells where the ray stays clear of the surface's height range.
-            match side {
-                Side::Above if za.min(zb) > z_top + margin => continue,
-                Side::Below if za.max(zb) < z_floor - margin => continue,
-                _ => {}
+            let clear = match side {
+                Side::Above => za.min(zb) > z_top + margin,
+                Side::Below => za.max(zb) < z_floor - margin,
+            };
+            if clear {
+                continue;
             }
+            // All spans that can meet the ray's segment in this cell (pyramids lower than
+            // the ray's lowest point in it are clear of it).
+            let all_spans = |spans: &mut [Span; MAX_PER_CELL + 1]| {
+                spans[0] = ground_span;
+                let mut m = 1;
+                for it in items {
+                    if it.top + margin < za.min(zb) {
+                        break;
+                    }
+                    spans[m] = self.cone_span(it.image, ol, &slopes, pinned(skip, it.image, zero));
+                    m += 1;
+                }
+                m
+            };
             let entry = match side {
                 Side::Above => {
-                    let mut best: Option<Entry> = None;
-                    if let Some(t) = ground_span.first_from(cell.t0).filter(|&t| t <= cell.t1) {
-                        let tag = (ground_span.start >= cell.t0).then_some(GROUND_FACET);
-                        best = Some(Entry { t, tag });
-                    }
+                    // Fast path: the earliest entry into any pyramid or the ground, testing
+                    // pyramids in order of height and stopping at the first one lower than
+                    // the ray before that entry.
+                    let mut best: Option<(Entry, Span)> = None;
+                    let consider = |span: Span, best: &mut Option<(Entry, Span)>| {
+                        if let Some(t) = span.first_from(cell.t0)
+                            && t <= cell.t1
+                            && best.is_none_or(|b| t < b.0.t)
+                        {
+                            let tag = span.start.is_finite().then_some(span.start_tag);
+                            let rate = if tag.is_some() {
+                                span.start_rate
+                            } else {
+                                f64::INFINITY
+                            };
+                            let inside_at_lo = span.start < cell.t0;
+                            let e = Entry {
+                                t,
+                                tag,
+                                inside_at_lo,
+                                rate,
+                                since: span.start,
+                                span_end: span.end,
+                                span_end_rate: span.end_rate,
+                            };
+                            *best = Some((e, span));
+                        }
+                    };
+                    consider(ground_span, &mut best);
                     for it in items {
-                        // Pyramids lower than the ray over the rest of the search are clear.
-                        let t_far = best.map_or(cell.t1, |e| e.t);
+                        let t_far = best.map_or(cell.t1, |b| b.0.t);
                         if it.top + margin < za.min(o.z + t_far * d.z) {
                             break;
                         }
-                        let span = self.cone_span(it.image, ol, d, pinned(skip, it.image, zero));
-                        if let Some(t) = span.first_from(cell.t0) {
-                            if t <= cell.t1 && best.is_none_or(|b| t < b.t) {
-                                best = Some(Entry {
-                                    t,
-                                    tag: (span.start >= cell.t0).then_some(span.start_tag),
-                                });
-                            }
+                        consider(
+                            self.cone_span(it.image, ol, &slopes, pinned(skip, it.image, zero)),
+                            &mut best,
+                        );
+                    }
+                    match best {
+                        None => None,
+                        // The ray gets deep inside that one solid: a real crossing.
+                        Some((e, span))
+                            if !e.inside_at_lo
+                                && super::excursion_depth(
+                                    &e,
+                                    span.end.min(cell.t1),
+                                    span.end_rate,
+                                ) > 4.0 * self.depth =>
+                        {
+                            Some(e)
+                        }
+                        // A possibly spurious touch: decide with every span of the cell.
+                        Some(_) => {
+                            let spans = buf.get_or_insert([Span::EMPTY; MAX_PER_CELL + 1]);
+                            let m = all_spans(spans);
+                            cell_entry(&spans[..m], side, cell.t0, cell.t1, self.depth)
                         }
                     }
-                    best
                 }
                 Side::Below => {
-                    spans[0] = ground_span;
-                    let mut m = 1;
-                    let z_low = za.min(zb);
-                    for it in items {
-                        if it.top + margin < z_low {
-                            break;
-                        }
-                        spans[m] = self.cone_span(it.image, ol, d, pinned(skip, it.image, zero));
-                        m += 1;
-                    }
-                    cell_entry(&spans[..m], side, cell.t0, cell.t1)
+                    let spans = buf.get_or_insert([Span::EMPTY; MAX_PER_CELL + 1]);
+                    let m = all_spans(spans);
+                    cell_entry(&spans[..m], side, cell.t0, cell.t1, self.depth)
                 }
             };
             let Some(entry) = entry else { continue };
-            // Hit point in the tile frame, snapped onto the facet plane.
+            // Hit point in the tile frame, snapped onto the surface (the envelope of the
+            // cell's pyramids, which near an edge may be the neighbour of the crossed facet).
             let t = entry.t;
+            let probe = |dt: f64| {
+                let q = o + (t + dt) * d;
+                let (gi, gj) = (floor_i64(q.x / self.cell), floor_i64(q.y / self.cell));
+                let (li, lj, [tx, ty], _, _) = locate(gi, gj);
+                (
+                    (gi, gj),
+                    self.envelope(self.cell_items(li, lj).0, q.x - tx, q.y - ty)
+                        .1,
+                )
+            };
+            let ok = |c: (i64, i64), k: u32| {
+                let tile_zero = (c.0.div_euclid(n), c.1.div_euclid(n)) == (0, 0);
+                let left = skip == Some(k) && (k == GROUND_FACET || tile_zero);
+                !left && super::faces(side, d, self.facet_plane(k).1)
+            };
+            let delta = super::PROBE_REL * self.tile;
+            let ((gi, gj), facet) =
+                super::crossed_facet(&entry, first_cell, (cell.i, cell.j), delta, probe, ok);
+            let (li, lj, [tx, ty], _, _) = locate(gi, gj);
+            let (items, _) = self.cell_items(li, lj);
             let p = o + t * d;
-            let (x, ex) = clamp_into(p.x - tx, self.tile);
-            let (y, ey) = clamp_into(p.y - ty, self.tile);
-            let facet = entry.tag.unwrap_or_else(|| self.envelope(items, x, y).1);
-            let (plane, normal) = self.facet_plane(facet);
-            let e = ray_point_err(o, d, t);
-            let (ex, ey) = (e.x + ex, e.y + ey);
-            let ez = plane.z_err(x, y) + plane.a.abs() * ex + plane.b.abs() * ey;
-            let point = Vec3::new(x, y, plane.z_at(x, y));
-            return Some(facet_hit(t, point, Vec3::new(ex, ey, ez), normal, facet));
+            let (x, _) = clamp_into(p.x - tx, self.tile);
+            let (y, _) = clamp_into(p.y - ty, self.tile);
+            let (z, active) = self.envelope(items, x, y);
+            let (_, normal) = self.facet_plane(facet);
+            let point = Vec3::new(x, y, z);
+            let p_err = snapped_err(x, y, self.facet_plane(active).0.z_err(x, y));
+            return Some(facet_hit(t, point, p_err, normal, facet));
         }
         None
     }
