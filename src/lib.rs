@@ -24,12 +24,12 @@
 //! Results are engineering estimates; product ratings need certified measurement.
 
 pub mod geometry;
-pub mod simulate;
 pub mod optics;
 pub mod redistribution;
 pub mod report;
 pub mod sampling;
 pub mod scenario;
+pub mod simulate;
 pub mod spectrum;
 pub mod texture;
 pub mod thinfilm;

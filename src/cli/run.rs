@@ -58,27 +58,68 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     )?;
     bar.finish();
     let sources = material_sources(&scenario);
-    lightfold::report::run_report::write_run(&dir, &result, &scenario.text, &sources, scenario.output.plots)
-        .map_err(|e| Failure::Internal(e.to_string()))?;
+    lightfold::report::run_report::write_run(
+        &dir,
+        &result,
+        &scenario.text,
+        &sources,
+        scenario.output.plots,
+    )
+    .map_err(|e| Failure::Internal(e.to_string()))?;
     if args.json {
         let s = lightfold::report::run_report::summary_json(&result);
-        println!("{}", serde_json::to_string_pretty(&s).map_err(|e| Failure::Internal(e.to_string()))?);
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&s).map_err(|e| Failure::Internal(e.to_string()))?
+        );
     } else {
         let a = result.absorber_current();
-        println!("{}: {} wavelengths, {} rays, {:.1} s", result.scenario, result.wavelengths.len(), result.rays_total, result.wall_time_s);
-        println!("  photocurrent in {:<28} {:>8.3} ± {:.3} mA/cm²", a.name, a.j_ma_cm2, a.std_error_ma_cm2);
+        println!(
+            "{}: {} wavelengths, {} rays, {:.1} s",
+            result.scenario,
+            result.wavelengths.len(),
+            result.rays_total,
+            result.wall_time_s
+        );
+        println!(
+            "  photocurrent in {:<28} {:>8.3} ± {:.3} mA/cm²",
+            a.name, a.j_ma_cm2, a.std_error_ma_cm2
+        );
         for l in &result.losses {
-            println!("  {:<43} {:>8.3} ± {:.3} mA/cm²", l.name, l.j_ma_cm2, l.std_error_ma_cm2);
+            println!(
+                "  {:<43} {:>8.3} ± {:.3} mA/cm²",
+                l.name, l.j_ma_cm2, l.std_error_ma_cm2
+            );
         }
-        println!("  {:<43} {:>8.3} mA/cm²", "A = 1 over the grid", result.max_current_ma_cm2);
-        println!("  weighted reflectance {:.4}; Lambertian (TY) {:.3}, exact {:.3} mA/cm²", result.weighted_reflectance, result.limits.tiedje_yablonovitch_ma_cm2, result.limits.lambertian_exact_ma_cm2);
-        println!("results in {}/ (open report.html); engineering estimates, not certified measurements", out.display());
+        println!(
+            "  {:<43} {:>8.3} mA/cm²",
+            "A = 1 over the grid", result.max_current_ma_cm2
+        );
+        println!(
+            "  weighted reflectance {:.4}; Lambertian (TY) {:.3}, exact {:.3} mA/cm²",
+            result.weighted_reflectance,
+            result.limits.tiedje_yablonovitch_ma_cm2,
+            result.limits.lambertian_exact_ma_cm2
+        );
+        println!(
+            "results in {}/ (open report.html); engineering estimates, not certified measurements",
+            out.display()
+        );
     }
     Ok(())
 }
 
 fn slug(name: &str) -> String {
-    let s: String = name.chars().map(|c| if c.is_ascii_alphanumeric() || c == '-' { c.to_ascii_lowercase() } else { '-' }).collect();
+    let s: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' {
+                c.to_ascii_lowercase()
+            } else {
+                '-'
+            }
+        })
+        .collect();
     if s.is_empty() { "scenario".into() } else { s }
 }
 

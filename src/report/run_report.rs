@@ -2,11 +2,11 @@
 //! tables, plots as SVG and PNG, and one self-contained report.html. Reads a
 //! `simulate::RunResult`; computes no physics beyond unit conversion and sums for display.
 
+use super::ReportError;
 use super::csv::{Column, CsvWriter};
 use super::files::ResultsDir;
 use super::html::Page;
 use super::plot::{BarChart, BarGroup, Layer, LinePlot, Plot, PolarMap, Series, StackedArea};
-use super::ReportError;
 use crate::simulate::RunResult;
 use serde_json::json;
 
@@ -70,7 +70,10 @@ fn spectra_csv(r: &RunResult) -> Result<String, ReportError> {
         }
     }
     let mut w = CsvWriter::new(&cols);
-    w.comment(&format!("lightfold {} scenario {} seed {}: fractions of incident power, se = standard error", r.version, r.scenario, r.seed));
+    w.comment(&format!(
+        "lightfold {} scenario {} seed {}: fractions of incident power, se = standard error",
+        r.version, r.scenario, r.seed
+    ));
     w.comment(&format!("transmittance = {}", r.exit_name));
     for wl in &r.wavelengths {
         let mut row = vec![
@@ -94,20 +97,39 @@ fn spectra_csv(r: &RunResult) -> Result<String, ReportError> {
 }
 
 fn losses_csv(r: &RunResult) -> Result<String, ReportError> {
-    let mut w = CsvWriter::new(&[Column::new("item", ""), Column::new("current", "mA/cm2"), Column::new("std_error", "mA/cm2")]);
+    let mut w = CsvWriter::new(&[
+        Column::new("item", ""),
+        Column::new("current", "mA/cm2"),
+        Column::new("std_error", "mA/cm2"),
+    ]);
     w.comment("photon flux of each loss (and the absorber's collected current) as current density over the wavelength grid");
     use super::csv::Cell;
     let a = r.absorber_current();
-    w.row(&[Cell::Text(format!("absorbed in {}", a.name)), Cell::Num(a.j_ma_cm2), Cell::Num(a.std_error_ma_cm2)])?;
+    w.row(&[
+        Cell::Text(format!("absorbed in {}", a.name)),
+        Cell::Num(a.j_ma_cm2),
+        Cell::Num(a.std_error_ma_cm2),
+    ])?;
     for l in &r.losses {
-        w.row(&[Cell::Text(l.name.clone()), Cell::Num(l.j_ma_cm2), Cell::Num(l.std_error_ma_cm2)])?;
+        w.row(&[
+            Cell::Text(l.name.clone()),
+            Cell::Num(l.j_ma_cm2),
+            Cell::Num(l.std_error_ma_cm2),
+        ])?;
     }
-    w.row(&[Cell::Text("total (A = 1 over the grid)".into()), Cell::Num(r.max_current_ma_cm2), Cell::Num(0.0)])?;
+    w.row(&[
+        Cell::Text("total (A = 1 over the grid)".into()),
+        Cell::Num(r.max_current_ma_cm2),
+        Cell::Num(0.0),
+    ])?;
     Ok(w.finish())
 }
 
 fn generation_csv(r: &RunResult) -> Result<String, ReportError> {
-    let mut w = CsvWriter::new(&[Column::new("depth", "um"), Column::new("generation", "cm-3 s-1")]);
+    let mut w = CsvWriter::new(&[
+        Column::new("depth", "um"),
+        Column::new("generation", "cm-3 s-1"),
+    ]);
     w.comment(&format!("photogeneration in {} under {}; depth at bin centres, from the absorber's top base plane (negative: inside texture peaks)", r.absorber_name, r.spectrum));
     for (b, g) in r.generation_cm3_s.iter().enumerate() {
         let z = 0.5 * (r.profile_edges_um[b] + r.profile_edges_um[b + 1]);
@@ -146,9 +168,19 @@ fn path_length_csv(r: &RunResult) -> Result<String, ReportError> {
 
 fn plots(r: &RunResult) -> Vec<(&'static str, String, Box<dyn Plot>)> {
     let x: Vec<f64> = r.wavelengths.iter().map(|w| w.wavelength_nm).collect();
-    let col = |f: &dyn Fn(&crate::simulate::WavelengthResult) -> f64| -> Vec<f64> { r.wavelengths.iter().map(f).collect() };
-    let mut area = StackedArea::new("Where the light goes", "wavelength (nm)", "fraction of incident power", x.clone());
-    area = area.layer(Layer::new(format!("A {}", r.layer_names[r.absorber]), col(&|w| w.layers[r.absorber].value)));
+    let col = |f: &dyn Fn(&crate::simulate::WavelengthResult) -> f64| -> Vec<f64> {
+        r.wavelengths.iter().map(f).collect()
+    };
+    let mut area = StackedArea::new(
+        "Where the light goes",
+        "wavelength (nm)",
+        "fraction of incident power",
+        x.clone(),
+    );
+    area = area.layer(Layer::new(
+        format!("A {}", r.layer_names[r.absorber]),
+        col(&|w| w.layers[r.absorber].value),
+    ));
     for (l, n) in r.layer_names.iter().enumerate() {
         if l != r.absorber {
             area = area.layer(Layer::new(format!("A {n}"), col(&|w| w.layers[l].value)));
@@ -159,9 +191,15 @@ fn plots(r: &RunResult) -> Vec<(&'static str, String, Box<dyn Plot>)> {
             area = area.layer(Layer::new(format!("A {n}"), col(&|w| w.films[i][k].value)));
         }
     }
-    area = area.layer(Layer::new(r.exit_name.clone(), col(&|w| w.transmittance.value)));
+    area = area.layer(Layer::new(
+        r.exit_name.clone(),
+        col(&|w| w.transmittance.value),
+    ));
     area = area.layer(Layer::new("escape", col(&|w| w.escape.value)));
-    area = area.layer(Layer::new("front reflection", col(&|w| w.reflectance.value - w.escape.value)));
+    area = area.layer(Layer::new(
+        "front reflection",
+        col(&|w| w.reflectance.value - w.escape.value),
+    ));
     area = area.y_range(0.0, 1.0);
 
     let mut cats = vec![format!("absorbed in {}", r.absorber_name)];
@@ -172,37 +210,91 @@ fn plots(r: &RunResult) -> Vec<(&'static str, String, Box<dyn Plot>)> {
         vals.push(l.j_ma_cm2);
         errs.push(l.std_error_ma_cm2);
     }
-    let bars = BarChart::new("Photon budget", "mA/cm²", cats).group(BarGroup::new("this design", vals).errors(errs));
+    let bars = BarChart::new("Photon budget", "mA/cm²", cats)
+        .group(BarGroup::new("this design", vals).errors(errs));
 
-    let z: Vec<(f64, f64)> = r.wavelengths.iter().filter_map(|w| w.path_length_enhancement.map(|z| (w.wavelength_nm, z))).collect();
+    let z: Vec<(f64, f64)> = r
+        .wavelengths
+        .iter()
+        .filter_map(|w| w.path_length_enhancement.map(|z| (w.wavelength_nm, z)))
+        .collect();
     let four_n2 = col(&|w| 4.0 * w.limits.n * w.limits.n);
     let path = LinePlot::new("Path-length enhancement", "wavelength (nm)", "Z")
-        .series(Series::line("Z of this design", z.iter().map(|p| p.0).collect(), z.iter().map(|p| p.1).collect()))
-        .series(Series::dashed("4n² (Lambertian, weak absorption)", x.clone(), four_n2))
+        .series(Series::line(
+            "Z of this design",
+            z.iter().map(|p| p.0).collect(),
+            z.iter().map(|p| p.1).collect(),
+        ))
+        .series(Series::dashed(
+            "4n² (Lambertian, weak absorption)",
+            x.clone(),
+            four_n2,
+        ))
         .log_y(true);
 
-    let depth: Vec<f64> = (0..r.generation_cm3_s.len()).map(|b| 0.5 * (r.profile_edges_um[b] + r.profile_edges_um[b + 1])).collect();
-    let generation = LinePlot::new(format!("Photogeneration in {}", r.absorber_name), "depth (µm)", "G (cm⁻³ s⁻¹)")
-        .series(Series::line("G(z)", depth, r.generation_cm3_s.clone()))
-        .log_y(true);
+    let depth: Vec<f64> = (0..r.generation_cm3_s.len())
+        .map(|b| 0.5 * (r.profile_edges_um[b] + r.profile_edges_um[b + 1]))
+        .collect();
+    let generation = LinePlot::new(
+        format!("Photogeneration in {}", r.absorber_name),
+        "depth (µm)",
+        "G (cm⁻³ s⁻¹)",
+    )
+    .series(Series::line("G(z)", depth, r.generation_cm3_s.clone()))
+    .log_y(true);
 
     let (np, na) = (r.entering_polar_bins, r.entering_azimuth_bins);
     let theta: Vec<f64> = (0..=np).map(|i| 90.0 * i as f64 / np as f64).collect();
     let phi: Vec<f64> = (0..=na).map(|i| 360.0 * i as f64 / na as f64).collect();
-    let values: Vec<Vec<f64>> = (0..np).map(|p| r.entering_map[p * na..(p + 1) * na].to_vec()).collect();
-    let polar = PolarMap::new(format!("Light entering {}", r.absorber_name), "photon flux (cm⁻² s⁻¹) per bin", theta, phi, values);
+    let values: Vec<Vec<f64>> = (0..np)
+        .map(|p| r.entering_map[p * na..(p + 1) * na].to_vec())
+        .collect();
+    let polar = PolarMap::new(
+        format!("Light entering {}", r.absorber_name),
+        "photon flux (cm⁻² s⁻¹) per bin",
+        theta,
+        phi,
+        values,
+    );
 
     vec![
-        ("spectrum", "Absorptance, transmittance and reflectance, stacked".into(), Box::new(area)),
-        ("losses", "Loss breakdown as current density".into(), Box::new(bars)),
-        ("path_length", "Path-length enhancement against the Lambertian 4n²".into(), Box::new(path)),
-        ("generation", "Photogeneration profile".into(), Box::new(generation)),
-        ("entering", "Direction of the light entering the absorber (polar angle 0–90° as radius ∝ sin θ)".into(), Box::new(polar)),
+        (
+            "spectrum",
+            "Absorptance, transmittance and reflectance, stacked".into(),
+            Box::new(area),
+        ),
+        (
+            "losses",
+            "Loss breakdown as current density".into(),
+            Box::new(bars),
+        ),
+        (
+            "path_length",
+            "Path-length enhancement against the Lambertian 4n²".into(),
+            Box::new(path),
+        ),
+        (
+            "generation",
+            "Photogeneration profile".into(),
+            Box::new(generation),
+        ),
+        (
+            "entering",
+            "Direction of the light entering the absorber (polar angle 0–90° as radius ∝ sin θ)"
+                .into(),
+            Box::new(polar),
+        ),
     ]
 }
 
 /// Writes the whole results folder; every file through a temporary name and a rename.
-pub fn write_run(dir: &ResultsDir, r: &RunResult, scenario_text: &str, sources: &[(String, String)], plots_on: bool) -> Result<(), ReportError> {
+pub fn write_run(
+    dir: &ResultsDir,
+    r: &RunResult,
+    scenario_text: &str,
+    sources: &[(String, String)],
+    plots_on: bool,
+) -> Result<(), ReportError> {
     let summary = summary_json(r);
     dir.write_text("spectra.csv", &spectra_csv(r)?)?;
     dir.write_text("losses.csv", &losses_csv(r)?)?;
@@ -217,21 +309,57 @@ pub fn write_run(dir: &ResultsDir, r: &RunResult, scenario_text: &str, sources: 
     page.key_values(
         "Headline figures",
         [
-            (format!("photocurrent in {}", a.name), format!("{:.3} ± {:.3} mA/cm²", a.j_ma_cm2, a.std_error_ma_cm2)),
-            ("weighted reflectance".to_string(), format!("{:.4} ({}–{} nm, photon-flux weighted)", r.weighted_reflectance, r.weighting_band_nm.0, r.weighting_band_nm.1)),
-            ("Lambertian (Tiedje–Yablonovitch) for the same wafer".to_string(), format!("{:.3} mA/cm²", r.limits.tiedje_yablonovitch_ma_cm2)),
-            ("exact ideal Lambertian".to_string(), format!("{:.3} mA/cm²", r.limits.lambertian_exact_ma_cm2)),
-            ("A = 1 over the grid".to_string(), format!("{:.3} mA/cm²", r.max_current_ma_cm2)),
-            ("rays traced / lost".to_string(), format!("{} / {}", r.rays_total, r.lost_rays_total)),
-            ("energy audit, max |R+ΣA+T−1|".to_string(), format!("{:.1e}", r.energy_error_max)),
+            (
+                format!("photocurrent in {}", a.name),
+                format!("{:.3} ± {:.3} mA/cm²", a.j_ma_cm2, a.std_error_ma_cm2),
+            ),
+            (
+                "weighted reflectance".to_string(),
+                format!(
+                    "{:.4} ({}–{} nm, photon-flux weighted)",
+                    r.weighted_reflectance, r.weighting_band_nm.0, r.weighting_band_nm.1
+                ),
+            ),
+            (
+                "Lambertian (Tiedje–Yablonovitch) for the same wafer".to_string(),
+                format!("{:.3} mA/cm²", r.limits.tiedje_yablonovitch_ma_cm2),
+            ),
+            (
+                "exact ideal Lambertian".to_string(),
+                format!("{:.3} mA/cm²", r.limits.lambertian_exact_ma_cm2),
+            ),
+            (
+                "A = 1 over the grid".to_string(),
+                format!("{:.3} mA/cm²", r.max_current_ma_cm2),
+            ),
+            (
+                "rays traced / lost".to_string(),
+                format!("{} / {}", r.rays_total, r.lost_rays_total),
+            ),
+            (
+                "energy audit, max |R+ΣA+T−1|".to_string(),
+                format!("{:.1e}", r.energy_error_max),
+            ),
             ("wall time".to_string(), format!("{:.2} s", r.wall_time_s)),
         ],
     );
-    let mut rows = vec![vec![format!("absorbed in {}", a.name), format!("{:.3}", a.j_ma_cm2), format!("{:.3}", a.std_error_ma_cm2)]];
+    let mut rows = vec![vec![
+        format!("absorbed in {}", a.name),
+        format!("{:.3}", a.j_ma_cm2),
+        format!("{:.3}", a.std_error_ma_cm2),
+    ]];
     for l in &r.losses {
-        rows.push(vec![l.name.clone(), format!("{:.3}", l.j_ma_cm2), format!("{:.3}", l.std_error_ma_cm2)]);
+        rows.push(vec![
+            l.name.clone(),
+            format!("{:.3}", l.j_ma_cm2),
+            format!("{:.3}", l.std_error_ma_cm2),
+        ]);
     }
-    page.table("Photon budget (mA/cm²)", vec!["item".into(), "J".into(), "σ".into()], rows);
+    page.table(
+        "Photon budget (mA/cm²)",
+        vec!["item".into(), "J".into(), "σ".into()],
+        rows,
+    );
     if plots_on {
         for (stem, caption, plot) in plots(r) {
             dir.write_plot(stem, plot.as_ref(), W, H)?;
@@ -247,7 +375,10 @@ pub fn write_run(dir: &ResultsDir, r: &RunResult, scenario_text: &str, sources: 
     page.provenance("lightfold version", r.version.clone());
     page.provenance("seed", r.seed.to_string());
     page.provenance("mode", r.mode.clone());
-    page.provenance("spectrum", format!("{} (ASTM G173-03 for the built-in spectra)", r.spectrum));
+    page.provenance(
+        "spectrum",
+        format!("{} (ASTM G173-03 for the built-in spectra)", r.spectrum),
+    );
     for (k, v) in sources {
         page.provenance(k.clone(), v.clone());
     }
@@ -255,10 +386,16 @@ pub fn write_run(dir: &ResultsDir, r: &RunResult, scenario_text: &str, sources: 
         "Files",
         [
             ("summary.json", "headline figures for scripts"),
-            ("spectra.csv", "per-wavelength R, T, escape, absorptance per layer and film"),
+            (
+                "spectra.csv",
+                "per-wavelength R, T, escape, absorptance per layer and film",
+            ),
             ("losses.csv", "loss breakdown"),
             ("generation.csv", "generation profile for device simulators"),
-            ("path_length.csv", "path-length enhancement and Lambertian references"),
+            (
+                "path_length.csv",
+                "path-length enhancement and Lambertian references",
+            ),
             ("results.json", "every number of the run"),
         ],
     );

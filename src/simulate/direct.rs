@@ -43,7 +43,8 @@ struct Optics {
 
 fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError> {
     let at = |m: &crate::optics::materials::Material| {
-        m.index_at(wavelength_nm).map_err(|e| RunError::Input(e.to_string()))
+        m.index_at(wavelength_nm)
+            .map_err(|e| RunError::Input(e.to_string()))
     };
     let top = at(&scenario.above.material)?;
     let bottom = at(&scenario.below.material)?;
@@ -55,7 +56,10 @@ fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError
         // α = 4πk/λ with λ in µm gives µm⁻¹.
         let alpha = 4.0 * std::f64::consts::PI * n.im / (wavelength_nm * 1e-3);
         n_media.push(n.re);
-        layers.push(ThickLayer { thickness_um: layer.thickness_um, alpha_per_um: alpha });
+        layers.push(ThickLayer {
+            thickness_um: layer.thickness_um,
+            alpha_per_um: alpha,
+        });
         layer_indices.push(n);
     }
     n_media.push(bottom.re);
@@ -64,25 +68,47 @@ fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError
         let above = Index::new(n_media[i], 0.0);
         // The exit half-space keeps its full complex index (a rear metal absorbs what
         // crosses into it); thick layers enter with their real part.
-        let below =
-            if i + 1 == n_media.len() - 1 { bottom } else { Index::new(n_media[i + 1], 0.0) };
+        let below = if i + 1 == n_media.len() - 1 {
+            bottom
+        } else {
+            Index::new(n_media[i + 1], 0.0)
+        };
         let films = spec
             .coating
             .iter()
             .map(|c| Ok(Layer::new(at(&c.material)?, c.thickness_nm)))
             .collect::<Result<Vec<_>, RunError>>()?;
-        stacks.push(FilmStack::new(above, films, below).map_err(|e| RunError::Input(e.to_string()))?);
+        stacks
+            .push(FilmStack::new(above, films, below).map_err(|e| RunError::Input(e.to_string()))?);
     }
-    Ok(Optics { n_media, layers, stacks, absorber_index: layer_indices[scenario.absorber] })
+    Ok(Optics {
+        n_media,
+        layers,
+        stacks,
+        absorber_index: layer_indices[scenario.absorber],
+    })
 }
 
-fn response(scenario: &Scenario, i: usize, stack: &FilmStack, wavelength_nm: f64) -> Result<Box<dyn FacetResponse>, RunError> {
+fn response(
+    scenario: &Scenario,
+    i: usize,
+    stack: &FilmStack,
+    wavelength_nm: f64,
+) -> Result<Box<dyn FacetResponse>, RunError> {
     let spec = scenario.interfaces().nth(i).expect("interface index");
     if stack.n_layers() == 0 && stack.below().im == 0.0 {
-        return Ok(Box::new(BareInterface { n_above: stack.above().re, n_below: stack.below().re }));
+        return Ok(Box::new(BareInterface {
+            n_above: stack.above().re,
+            n_below: stack.below().re,
+        }));
     }
-    let coated = CoatedInterface::new(stack, wavelength_nm, spec.coating_geometry, &[1.0, COS_111_TILT])
-        .map_err(|e| RunError::Input(e.to_string()))?;
+    let coated = CoatedInterface::new(
+        stack,
+        wavelength_nm,
+        spec.coating_geometry,
+        &[1.0, COS_111_TILT],
+    )
+    .map_err(|e| RunError::Input(e.to_string()))?;
     Ok(Box::new(coated))
 }
 
@@ -91,7 +117,11 @@ fn estimate(t: &WaferTally, m: &crate::tracer::Moments) -> Estimate {
 }
 
 /// Traces one wavelength.
-fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Result<(WavelengthResult, Vec<f64>), RunError> {
+fn one_wavelength(
+    scenario: &Scenario,
+    index: usize,
+    wavelength_nm: f64,
+) -> Result<(WavelengthResult, Vec<f64>), RunError> {
     let optics = optics_at(scenario, wavelength_nm)?;
     let responses = optics
         .stacks
@@ -116,7 +146,9 @@ fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Resu
         absorber: scenario.absorber,
         profile_bins: scenario.solver.profile_bins,
     };
-    model.validate().map_err(|e| RunError::Input(e.to_string()))?;
+    model
+        .validate()
+        .map_err(|e| RunError::Input(e.to_string()))?;
     let light = &scenario.light;
     let incidence = Incidence::Above {
         theta: light.polar_angle_deg.to_radians(),
@@ -127,9 +159,10 @@ fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Resu
     let seed = scenario.solver.seed;
     let t = match scenario.solver.rays {
         RayBudget::Fixed(n) => model.trace(&incidence, n, seed, key),
-        RayBudget::Precision { target_std_error, max_rays } => {
-            model.trace_to_precision(&incidence, target_std_error, max_rays, seed, key)
-        }
+        RayBudget::Precision {
+            target_std_error,
+            max_rays,
+        } => model.trace_to_precision(&incidence, target_std_error, max_rays, seed, key),
     };
     let n_rays = t.rays.max(1) as f64;
     let absorber = scenario.absorber;
@@ -138,7 +171,8 @@ fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Resu
     let esc = estimate(&t, &t.escape);
     let thickness = optics.layers[absorber].thickness_um;
     let k = optics.absorber_index.im;
-    let limits = crate::wafer::limits::limit_point(wavelength_nm, optics.absorber_index.re, k, thickness);
+    let limits =
+        crate::wafer::limits::limit_point(wavelength_nm, optics.absorber_index.re, k, thickness);
     let z = crate::wafer::limits::path_length_enhancement(
         a.value,
         r.value - esc.value,
@@ -148,7 +182,11 @@ fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Resu
     let films = scenario
         .interfaces()
         .enumerate()
-        .map(|(i, spec)| (0..spec.coating.len()).map(|l| estimate(&t, &t.films[i][l])).collect())
+        .map(|(i, spec)| {
+            (0..spec.coating.len())
+                .map(|l| estimate(&t, &t.films[i][l]))
+                .collect()
+        })
         .collect();
     let result = WavelengthResult {
         wavelength_nm,
@@ -164,7 +202,11 @@ fn one_wavelength(scenario: &Scenario, index: usize, wavelength_nm: f64) -> Resu
         energy_error: t.energy_error(),
         profile: t.profile.iter().map(|p| p / n_rays).collect(),
         entering: t.entering.iter().map(|p| p / n_rays).collect(),
-        entering_path_factor: if t.entering_power > 0.0 { t.entering_inv_cos / t.entering_power } else { 0.0 },
+        entering_path_factor: if t.entering_power > 0.0 {
+            t.entering_inv_cos / t.entering_power
+        } else {
+            0.0
+        },
         limits,
         path_length_enhancement: z,
     };

@@ -104,15 +104,23 @@ pub struct RunResult {
 /// Photon flux per grid point, cm⁻² s⁻¹: the weights that turn an absorptance curve on the
 /// grid into an absorbed photon flux at the spectrum's native resolution (J = q Σ Φ_j A_j).
 fn flux_weights(spectrum: &Spectrum, grid: &[f64]) -> Result<Vec<f64>, String> {
-    let g = spectrum.photocurrent_weights_ma_cm2(grid).map_err(|e| e.to_string())?;
+    let g = spectrum
+        .photocurrent_weights_ma_cm2(grid)
+        .map_err(|e| e.to_string())?;
     // J [mA/cm²] = 1e3 · q [C] · Φ [cm⁻² s⁻¹]
-    Ok(g.iter().map(|x| x / (1e3 * crate::spectrum::ELEMENTARY_CHARGE_C)).collect())
+    Ok(g.iter()
+        .map(|x| x / (1e3 * crate::spectrum::ELEMENTARY_CHARGE_C))
+        .collect())
 }
 
 /// (value, standard error) of Σ g_j x_j with independent errors per wavelength.
 fn integrate(g_ma: &[f64], x: &[Estimate]) -> (f64, f64) {
     let v = g_ma.iter().zip(x).map(|(g, e)| g * e.value).sum();
-    let s2: f64 = g_ma.iter().zip(x).map(|(g, e)| (g * e.std_error).powi(2)).sum();
+    let s2: f64 = g_ma
+        .iter()
+        .zip(x)
+        .map(|(g, e)| (g * e.std_error).powi(2))
+        .sum();
     (v, s2.sqrt())
 }
 
@@ -127,7 +135,9 @@ impl RunResult {
     ) -> Result<RunResult, String> {
         let spectrum = scenario.light.spectrum.get();
         let grid: Vec<f64> = wavelengths.iter().map(|w| w.wavelength_nm).collect();
-        let g = spectrum.photocurrent_weights_ma_cm2(&grid).map_err(|e| e.to_string())?;
+        let g = spectrum
+            .photocurrent_weights_ma_cm2(&grid)
+            .map_err(|e| e.to_string())?;
         let flux = flux_weights(spectrum, &grid)?;
         let layers: Vec<_> = scenario.layers().collect();
         let interfaces: Vec<_> = scenario.interfaces().collect();
@@ -159,11 +169,19 @@ impl RunResult {
         // Currents: the absorber first, then every other absorbing part.
         let mut currents = Vec::new();
         let (j, se) = integrate(&g, &column(&|w| w.layers[absorber]));
-        currents.push(Current { name: layer_names[absorber].clone(), j_ma_cm2: j, std_error_ma_cm2: se });
+        currents.push(Current {
+            name: layer_names[absorber].clone(),
+            j_ma_cm2: j,
+            std_error_ma_cm2: se,
+        });
         let mut losses = Vec::new();
         let push_loss = |name: String, x: Vec<Estimate>, losses: &mut Vec<Loss>| {
             let (j, se) = integrate(&g, &x);
-            losses.push(Loss { name, j_ma_cm2: j, std_error_ma_cm2: se });
+            losses.push(Loss {
+                name,
+                j_ma_cm2: j,
+                std_error_ma_cm2: se,
+            });
         };
         push_loss(
             "front reflection".into(),
@@ -173,7 +191,11 @@ impl RunResult {
             }),
             &mut losses,
         );
-        push_loss("escape (entered, left through the front)".into(), column(&|w| w.escape), &mut losses);
+        push_loss(
+            "escape (entered, left through the front)".into(),
+            column(&|w| w.escape),
+            &mut losses,
+        );
         for (i, names) in film_names.iter().enumerate() {
             for (k, name) in names.iter().enumerate() {
                 push_loss(name.clone(), column(&|w| w.films[i][k]), &mut losses);
@@ -185,8 +207,10 @@ impl RunResult {
             }
         }
         push_loss(exit_name.clone(), column(&|w| w.transmittance), &mut losses);
-        let abandoned: Vec<Estimate> =
-            column(&|w| Estimate { value: w.abandoned, std_error: 0.0 });
+        let abandoned: Vec<Estimate> = column(&|w| Estimate {
+            value: w.abandoned,
+            std_error: 0.0,
+        });
         if abandoned.iter().any(|a| a.value > 0.0) {
             push_loss("abandoned rays (numerics)".into(), abandoned, &mut losses);
         }
@@ -223,7 +247,11 @@ impl RunResult {
         let band = scenario.light.weighting_band_nm;
         let r: Vec<f64> = wavelengths.iter().map(|w| w.reflectance.value).collect();
         let weighted_reflectance = spectrum
-            .photon_weighted_mean(&grid, &r, (band.0.max(grid[0]), band.1.min(grid[grid.len() - 1])))
+            .photon_weighted_mean(
+                &grid,
+                &r,
+                (band.0.max(grid[0]), band.1.min(grid[grid.len() - 1])),
+            )
             .map_err(|e| e.to_string())?;
         let n: Vec<f64> = wavelengths.iter().map(|w| w.limits.n).collect();
         let k: Vec<f64> = wavelengths.iter().map(|w| w.limits.k).collect();
@@ -239,7 +267,10 @@ impl RunResult {
             rays_total: wavelengths.iter().map(|w| w.rays).sum(),
             lost_rays_total: wavelengths.iter().map(|w| w.lost_rays).sum(),
             event_limited_rays_total: wavelengths.iter().map(|w| w.event_limited_rays).sum(),
-            energy_error_max: wavelengths.iter().map(|w| w.energy_error).fold(0.0, f64::max),
+            energy_error_max: wavelengths
+                .iter()
+                .map(|w| w.energy_error)
+                .fold(0.0, f64::max),
             wavelengths,
             layer_names,
             film_names,

@@ -132,6 +132,8 @@ pub struct Ray {
 pub enum Outcome {
     /// Left into the medium on `Side`; the ray holds the exit direction and weight.
     Left(Side),
+    /// No power left: absorbed along the path or in the films (already booked there).
+    Extinguished,
     /// Given up: lost to numerics (`lost`) or stopped at the event limit or a facet with
     /// R + T = 0. Its weight is booked as abandoned so the energy balance still closes.
     Abandoned { lost: bool },
@@ -164,6 +166,9 @@ impl<'a> Surface<'a> {
         let [z_lo, z_hi] = self.texture.z_range_um();
         let mut events = 0u32;
         loop {
+            if ray.pol.s[0] == 0.0 {
+                return (Outcome::Extinguished, events);
+            }
             let Some(hit) = self.texture.intersect(ray.origin, ray.dir, ray.skip) else {
                 // Left the slab: must be travelling away from the surface on its own side.
                 let ok = match side {
@@ -261,7 +266,8 @@ impl<'a> Surface<'a> {
                 }
             };
             if c_r + c_t <= 0.0 {
-                return (Outcome::Abandoned { lost: false }, events);
+                // Everything went into the films (booked above).
+                return (Outcome::Extinguished, events);
             }
 
             // New direction
@@ -280,8 +286,16 @@ impl<'a> Surface<'a> {
             } else {
                 let eta = self.index(side) / self.index(other(side));
                 let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
-                let cos_t = (1.0 - sin2_t).max(0.0).sqrt();
-                (eta * k + (eta * cos_i - cos_t) * facing).normalize()
+                if sin2_t >= 1.0 {
+                    // Transmission without a real refraction angle happens only into an
+                    // absorbing far medium (a rear metal, whose complex index the film
+                    // response keeps): the power is absorbed there at once, so the ray is
+                    // sent straight into it along the facet normal.
+                    -facing
+                } else {
+                    let cos_t = (1.0 - sin2_t).sqrt();
+                    (eta * k + (eta * cos_i - cos_t) * facing).normalize()
+                }
             };
             debug_assert!((new_dir.length() - 1.0).abs() < 1e-9);
             if !reflect {
@@ -411,6 +425,7 @@ impl<'a> Surface<'a> {
                     }
                     obs.exit(start, side, ray.dir, w);
                 }
+                Outcome::Extinguished => {}
                 Outcome::Abandoned { lost } => {
                     a = w;
                     if lost {

@@ -343,6 +343,7 @@ impl<'a> WaferModel<'a> {
                 );
                 events_total += events;
                 match outcome {
+                    Outcome::Extinguished => break,
                     Outcome::Abandoned { lost } => {
                         a = ray.pol.s[0];
                         if lost {
