@@ -524,7 +524,7 @@ fn refining_polar_bins_shrinks_the_disagreement() {
 /// polarisation treatments (the Stokes-mode direct tracer keeps polarisation across the
 /// wafer, the matrices cannot: its difference is printed, not asserted).
 #[test]
-#[ignore = "slow: about a minute on 2 cores"]
+#[ignore = "slow: several minutes on 2 cores (not timed)"]
 fn matrix_solver_matches_direct_tracer_finely_binned() {
     for wl in [1050.0, 600.0] {
         for (case, a) in [(case_a(wl), 8), (case_b(wl), 4), (case_c(wl), 8)] {
