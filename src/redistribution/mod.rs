@@ -16,6 +16,7 @@ pub mod matrix;
 pub mod npy;
 pub mod quad;
 pub mod tally;
+pub mod traced;
 
 pub use bins::{AngleBins, BinError, Hemisphere};
 pub use dense::Matrix;
