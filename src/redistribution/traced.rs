@@ -232,6 +232,8 @@ fn trace_batch(
         match outcome {
             Outcome::Left(out) => batch.add(matrix_side(out), bins.index(ray.dir), w),
             Outcome::Abandoned { .. } => batch.lose(w),
+            // All power went into the films (booked there).
+            Outcome::Extinguished => {}
         }
     }
 }
