@@ -5,7 +5,10 @@
 use std::process::Command;
 
 fn lightfold(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_lightfold")).args(args).output().unwrap()
+    Command::new(env!("CARGO_BIN_EXE_lightfold"))
+        .args(args)
+        .output()
+        .unwrap()
 }
 
 const SMALL: &str = r#"
@@ -38,20 +41,54 @@ fn run_writes_a_complete_results_folder_with_a_closed_photon_budget() {
     let scen = dir.path().join("small.toml");
     std::fs::write(&scen, SMALL).unwrap();
     let out_dir = dir.path().join("out");
-    let out = lightfold(&["run", scen.to_str().unwrap(), "-o", out_dir.to_str().unwrap(), "--json"]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
-    for f in ["summary.json", "spectra.csv", "losses.csv", "generation.csv", "path_length.csv", "report.html", "spectrum.svg", "spectrum.png", "losses.png", "entering.svg"] {
+    let out = lightfold(&[
+        "run",
+        scen.to_str().unwrap(),
+        "-o",
+        out_dir.to_str().unwrap(),
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    for f in [
+        "summary.json",
+        "spectra.csv",
+        "losses.csv",
+        "generation.csv",
+        "path_length.csv",
+        "report.html",
+        "spectrum.svg",
+        "spectrum.png",
+        "losses.png",
+        "entering.svg",
+    ] {
         assert!(out_dir.join(f).is_file(), "missing {f}");
     }
     let s: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let j = s["photocurrents_ma_cm2"][0]["j_ma_cm2"].as_f64().unwrap();
-    let losses: f64 = s["losses_ma_cm2"].as_array().unwrap().iter().map(|l| l["j_ma_cm2"].as_f64().unwrap()).sum();
+    let losses: f64 = s["losses_ma_cm2"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|l| l["j_ma_cm2"].as_f64().unwrap())
+        .sum();
     let max = s["max_current_ma_cm2"].as_f64().unwrap();
-    assert!((j + losses - max).abs() < 1e-9 * max, "{j} + {losses} != {max}");
+    assert!(
+        (j + losses - max).abs() < 1e-9 * max,
+        "{j} + {losses} != {max}"
+    );
     assert_eq!(s["rays_lost"].as_u64(), Some(0));
     assert!(s["energy_audit_max_error"].as_f64().unwrap() < 1e-12);
     // The same scenario again into the same folder is refused without --force.
-    let again = lightfold(&["run", scen.to_str().unwrap(), "-o", out_dir.to_str().unwrap()]);
+    let again = lightfold(&[
+        "run",
+        scen.to_str().unwrap(),
+        "-o",
+        out_dir.to_str().unwrap(),
+    ]);
     assert_eq!(again.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&again.stderr).contains("--force"));
 }
@@ -60,11 +97,23 @@ fn run_writes_a_complete_results_folder_with_a_closed_photon_budget() {
 fn a_bad_scenario_exits_1_and_writes_nothing() {
     let dir = tempfile::tempdir().unwrap();
     let scen = dir.path().join("bad.toml");
-    std::fs::write(&scen, SMALL.replace("thickness_um = 120", "thickness_um = -5")).unwrap();
+    std::fs::write(
+        &scen,
+        SMALL.replace("thickness_um = 120", "thickness_um = -5"),
+    )
+    .unwrap();
     let out_dir = dir.path().join("out");
-    let out = lightfold(&["run", scen.to_str().unwrap(), "-o", out_dir.to_str().unwrap()]);
+    let out = lightfold(&[
+        "run",
+        scen.to_str().unwrap(),
+        "-o",
+        out_dir.to_str().unwrap(),
+    ]);
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(1), "{err}");
-    assert!(err.contains("bad.toml:") && err.contains("thickness_um"), "{err}");
+    assert!(
+        err.contains("bad.toml:") && err.contains("thickness_um"),
+        "{err}"
+    );
     assert!(!out_dir.exists());
 }

@@ -214,8 +214,6 @@ fn compare(case: &Case, s: &Settings) -> Vec<Compared> {
     let rear_resp = response(&rear_stack, wl);
     let front_resp: &'static dyn FacetResponse = Box::leak(front_resp);
     let rear_resp: &'static dyn FacetResponse = Box::leak(rear_resp);
-    let front_resp = &*front_resp;
-    let rear_resp = &*rear_resp;
     let planar_tex = lightfold::texture::Planar::new();
     // The rear's n_below steers only rays entering the metal (see the file doc).
     let rear_nb = if below.im > 0.0 { n_si.re } else { below.re };

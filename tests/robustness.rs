@@ -43,7 +43,7 @@ impl Case {
     }
 
     /// Shift by a lattice vector that brings (x, y) into the unit cell.
-    fn into_cell(&self, x: f64, y: f64) -> Vec3 {
+    fn wrap_into_cell(&self, x: f64, y: f64) -> Vec3 {
         let [a, b] = self.tex.lattice_um();
         let (u, v) = self.cell_uv(x, y);
         let (fu, fv) = (u.floor(), v.floor());
@@ -408,7 +408,7 @@ fn aimed_rays(case: &Case, per_side: usize, seed: u64) -> Tally {
         };
         let dist = (z_start - p.z) / (-d.z);
         let o = p - dist * d;
-        let shift = case.into_cell(o.x, o.y);
+        let shift = case.wrap_into_cell(o.x, o.y);
         let o = o - shift;
         let what = format!(
             "aimed at ({x}, {y}) from {}",
@@ -489,7 +489,7 @@ fn leaving_rays(case: &Case, n: usize, seed: u64) -> Tally {
             let phi = std::f64::consts::TAU * s.uniform();
             (sp[0] + r * phi.cos(), sp[1] + r * phi.sin())
         };
-        let shift = case.into_cell(x, y);
+        let shift = case.wrap_into_cell(x, y);
         let o = Vec3::new(x, y, z_max + 1.0) - shift;
         let Some(h) = case.tex.intersect(o, Vec3::NEG_Z, None) else {
             tally.fail(format!("{}: vertical ray at ({x}, {y}) lost", case.name));

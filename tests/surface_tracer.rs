@@ -149,7 +149,7 @@ fn path_reflectance_fields(normals: &[Vec3], n2: f64, stokes: bool) -> f64 {
         for n in normals {
             let c = -k.dot(*n);
             r *= amp(c).2;
-            k = k + 2.0 * c * *n;
+            k += 2.0 * c * *n;
         }
         return r;
     }

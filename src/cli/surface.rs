@@ -141,12 +141,12 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
     if args.rays == 0 {
         return Err(Failure::BadInput("--rays 0: trace at least one ray".into()));
     }
-    if let Some(t) = args.target_se {
-        if !(t > 0.0 && t < 1.0) {
-            return Err(Failure::BadInput(format!(
-                "--target-se {t}: expected a number in (0, 1)"
-            )));
-        }
+    if let Some(t) = args.target_se
+        && !(t > 0.0 && t < 1.0)
+    {
+        return Err(Failure::BadInput(format!(
+            "--target-se {t}: expected a number in (0, 1)"
+        )));
     }
     let from = args.from.as_str();
     if !matches!(from, "above" | "below" | "below-isotropic") {

@@ -113,10 +113,10 @@ pub fn known_geometries(base: Option<&Path>) -> Vec<String> {
         };
         for entry in read.flatten() {
             let p = entry.path();
-            if p.extension().is_some_and(|e| e == "toml") {
-                if let Some(stem) = p.file_stem() {
-                    names.push(stem.to_string_lossy().into_owned());
-                }
+            if p.extension().is_some_and(|e| e == "toml")
+                && let Some(stem) = p.file_stem()
+            {
+                names.push(stem.to_string_lossy().into_owned());
             }
         }
     }

@@ -202,12 +202,12 @@ pub fn set_number(
     let tables: Vec<&[Entry]> = stack.iter().map(|(t, _)| *t).collect();
     let names = element_names(&tables);
     let mut norm: Vec<String> = segs.iter().map(|s| s.to_string()).collect();
-    if norm.len() > 2 && norm[0] == "stack" {
-        if let Ok(i) = norm[1].parse::<usize>() {
-            if let Some(n) = names.get(i) {
-                norm[1] = n.clone();
-            }
-        }
+    if norm.len() > 2
+        && norm[0] == "stack"
+        && let Ok(i) = norm[1].parse::<usize>()
+        && let Some(n) = names.get(i)
+    {
+        norm[1] = n.clone();
     }
     let canonical = norm.join(".");
     if !known.contains(&canonical) {

@@ -942,17 +942,18 @@ pub(crate) fn validate(
     let output = output(&mut ck);
 
     // Light polarisation needs Stokes tracking.
-    if let (Some(pol), Some((mode, span))) = (input_pol, &solver_pol) {
-        if pol != InputPolarisation::Unpolarised && *mode == PolarisationMode::Unpolarised {
-            ck.at(
-                Some(span),
-                "`polarisation` in [solver] = \"unpolarised\" discards the polarised light set \
+    if let (Some(pol), Some((mode, span))) = (input_pol, &solver_pol)
+        && pol != InputPolarisation::Unpolarised
+        && *mode == PolarisationMode::Unpolarised
+    {
+        ck.at(
+            Some(span),
+            "`polarisation` in [solver] = \"unpolarised\" discards the polarised light set \
                  in [light]",
-                "solver polarisation \"stokes\" when [light] polarisation is \"s\", \"p\" or \
+            "solver polarisation \"stokes\" when [light] polarisation is \"s\", \"p\" or \
                  { linear_deg = … }",
-                "set `polarisation = \"stokes\"` in [solver], or unpolarised light in [light]",
-            );
-        }
+            "set `polarisation = \"stokes\"` in [solver], or unpolarised light in [light]",
+        );
     }
 
     // Every material over the whole wavelength grid.
@@ -1998,21 +1999,21 @@ fn check_transparent_above(ck: &mut Checker<'_>, above: &Medium, grid: &Waveleng
         .find(|(_, _, role)| role == "[above]")
         .map(|(_, s, _)| s.clone());
     for &wl in grid.as_slice() {
-        if let Ok(n) = above.material.index_at(wl) {
-            if n.im > 0.0 {
-                ck.at(
-                    span.as_ref(),
-                    format!(
-                        "the medium above, `{}`, absorbs (k = {} at {wl} nm)",
-                        above.material.id(),
-                        n.im
-                    ),
-                    "a transparent incidence medium (k = 0), e.g. air",
-                    "put absorbing media in the stack as thick layers under an interface, with \
+        if let Ok(n) = above.material.index_at(wl)
+            && n.im > 0.0
+        {
+            ck.at(
+                span.as_ref(),
+                format!(
+                    "the medium above, `{}`, absorbs (k = {} at {wl} nm)",
+                    above.material.id(),
+                    n.im
+                ),
+                "a transparent incidence medium (k = 0), e.g. air",
+                "put absorbing media in the stack as thick layers under an interface, with \
                      air (or a transparent medium) above",
-                );
-                return;
-            }
+            );
+            return;
         }
     }
 }
