@@ -323,7 +323,10 @@ impl<'a> Surface<'a> {
             Side::Above => z_hi + margin,
             Side::Below => z_lo - margin,
         };
-        Vec3::new(rng.uniform() * px, rng.uniform() * py, z)
+        // Uniform over the unit cell u·a + v·b (rotated for rotated lattices).
+        let [a, b] = self.texture.lattice_um();
+        let (u, v) = (rng.uniform(), rng.uniform());
+        Vec3::new(u * a[0] + v * b[0], u * a[1] + v * b[1], z)
     }
 
     /// Starts a ray for `incidence` at a random position in the unit cell.
