@@ -28,6 +28,8 @@ enum Command {
     Surface(cli::surface::SurfaceArgs),
     /// Run a scenario (or the embedded demo) and write a results folder with report.html.
     Run(cli::run::RunArgs),
+    /// Run several scenarios and compare them side by side (table, plots, HTML).
+    Compare(cli::compare::CompareArgs),
     /// Lambertian (4n²) limit, exact Lambertian, single and double pass references for a wafer.
     Limit(cli::limit::LimitArgs),
 }
@@ -40,6 +42,7 @@ fn main() -> ExitCode {
         Command::Materials(args) => cli::materials::run(args),
         Command::Surface(args) => cli::surface::run(args),
         Command::Run(args) => cli::run::run(args),
+        Command::Compare(args) => cli::compare::run(args),
         Command::Limit(args) => cli::limit::run(args),
     };
     match outcome {

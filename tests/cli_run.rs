@@ -117,3 +117,52 @@ fn a_bad_scenario_exits_1_and_writes_nothing() {
     );
     assert!(!out_dir.exists());
 }
+
+#[test]
+fn compare_puts_two_designs_side_by_side() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = dir.path().join("a.toml");
+    let b = dir.path().join("b.toml");
+    std::fs::write(&a, SMALL).unwrap();
+    std::fs::write(
+        &b,
+        SMALL
+            .replace("name = \"small\"", "name = \"planar\"")
+            .replace("upright-pyramids-10um", "planar"),
+    )
+    .unwrap();
+    let out_dir = dir.path().join("cmp");
+    let out = lightfold(&[
+        "compare",
+        a.to_str().unwrap(),
+        b.to_str().unwrap(),
+        "-o",
+        out_dir.to_str().unwrap(),
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = |i: usize| v[i]["photocurrent_ma_cm2"].as_f64().unwrap();
+    // Pyramids trap light and cut front reflection: more current than a planar front with
+    // the same coating (common practice, no source).
+    assert!(j(0) > j(1) + 1.0, "{} vs {}", j(0), j(1));
+    for f in ["compare.csv", "compare.html", "compare_losses.png"] {
+        assert!(out_dir.join(f).is_file(), "missing {f}");
+    }
+    // A bad scenario among them: exit 1, nothing written.
+    std::fs::write(&b, "name = 3").unwrap();
+    let out_dir2 = dir.path().join("cmp2");
+    let out = lightfold(&[
+        "compare",
+        a.to_str().unwrap(),
+        b.to_str().unwrap(),
+        "-o",
+        out_dir2.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(1));
+    assert!(!out_dir2.exists());
+}

@@ -1,6 +1,7 @@
 //! Subcommands of the binary. Each file parses its arguments, calls the library and prints.
 
 pub mod check;
+pub mod compare;
 pub mod film;
 pub mod limit;
 pub mod materials;
