@@ -664,22 +664,8 @@ fn json_text(
 /// Write `text` to a temporary file in the target's folder, then rename it over the target:
 /// a failure never leaves half a file or clobbers an old one.
 pub(super) fn write_atomically(path: &Path, text: &str) -> Result<(), Failure> {
-    let folder = parent_folder(path);
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_default();
-    let tmp = folder.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| -> std::io::Result<()> {
-        let mut file = std::fs::File::create(&tmp)?;
-        file.write_all(text.as_bytes())?;
-        file.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    result.map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        Failure::Internal(format!("cannot write {}: {e}", path.display()))
-    })
+    lightfold::report::write_atomic(path, text.as_bytes())
+        .map_err(|e| Failure::Internal(format!("cannot write {}: {e}", path.display())))
 }
 
 #[cfg(test)]
