@@ -166,3 +166,57 @@ fn compare_puts_two_designs_side_by_side() {
     assert_eq!(out.status.code(), Some(1));
     assert!(!out_dir2.exists());
 }
+
+#[test]
+fn matrix_mode_agrees_with_direct_mode_on_the_absorber_current() {
+    // Same wafer, both solvers (DESIGN §5: they must agree within Monte Carlo and binning
+    // error; the element-wise comparison is in tests/matrix_vs_direct.rs).
+    let dir = tempfile::tempdir().unwrap();
+    // Strongly and moderately absorbed light only: near the band gap, regular pyramids over a
+    // planar mirror keep light paths so correlated that 10 × 4 bins are too coarse (several
+    // per cent of binning error there; tests/matrix_vs_direct.rs refines the bins).
+    let small = SMALL.replace("500:1100:200", "500:900:200");
+    let direct = small.replace("rays = 3000", "rays = 20000");
+    let matrix = small.replace(
+        "rays = 3000",
+        "mode = \"matrix\"\nrays = 2048\npolar_bins = 10\nazimuth_bins = 4",
+    );
+    let mut j = Vec::new();
+    for (name, text) in [("d", direct), ("m", matrix)] {
+        let scen = dir.path().join(format!("{name}.toml"));
+        std::fs::write(&scen, text).unwrap();
+        let out = lightfold(&[
+            "run",
+            scen.to_str().unwrap(),
+            "-o",
+            dir.path().join(name).to_str().unwrap(),
+            "--json",
+        ]);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let s: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert_eq!(
+            s["mode"].as_str(),
+            Some(if name == "d" { "direct" } else { "matrix" })
+        );
+        assert!(s["energy_audit_max_error"].as_f64().unwrap() < 1e-9);
+        j.push((
+            s["photocurrents_ma_cm2"][0]["j_ma_cm2"].as_f64().unwrap(),
+            s["photocurrents_ma_cm2"][0]["std_error_ma_cm2"]
+                .as_f64()
+                .unwrap(),
+        ));
+    }
+    // Tolerance: 4σ of the direct run plus 1 % for binning (10 polar bins) and the matrix
+    // build's own noise, which is not propagated.
+    let tol = 4.0 * j[0].1 + 0.01 * j[0].0;
+    assert!(
+        (j[0].0 - j[1].0).abs() < tol,
+        "direct {:?} vs matrix {:?}",
+        j[0],
+        j[1]
+    );
+}

@@ -34,14 +34,16 @@ pub fn assumptions() -> Vec<String> {
 }
 
 /// The per-wavelength optical inputs: real indices and α of thick media, interface stacks.
-struct Optics {
-    n_media: Vec<f64>,
-    layers: Vec<ThickLayer>,
-    stacks: Vec<FilmStack>,
-    absorber_index: Index,
+pub(super) struct Optics {
+    pub(super) n_media: Vec<f64>,
+    pub(super) layers: Vec<ThickLayer>,
+    pub(super) stacks: Vec<FilmStack>,
+    pub(super) absorber_index: Index,
+    /// Complex indices of the thick layers, top to bottom.
+    pub(super) layer_indices: Vec<Index>,
 }
 
-fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError> {
+pub(super) fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError> {
     let at = |m: &crate::optics::materials::Material| {
         m.index_at(wavelength_nm)
             .map_err(|e| RunError::Input(e.to_string()))
@@ -86,10 +88,11 @@ fn optics_at(scenario: &Scenario, wavelength_nm: f64) -> Result<Optics, RunError
         layers,
         stacks,
         absorber_index: layer_indices[scenario.absorber],
+        layer_indices,
     })
 }
 
-fn response(
+pub(super) fn response(
     scenario: &Scenario,
     i: usize,
     stack: &FilmStack,

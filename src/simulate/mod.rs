@@ -9,6 +9,7 @@
 //! Invariant: for every wavelength R + ΣA + T (+ abandoned) = 1 to round-off in the accounting.
 
 mod direct;
+mod matrix;
 mod result;
 
 pub use result::{Current, Loss, RunResult, WavelengthResult};
@@ -36,10 +37,7 @@ pub fn run(scenario: &Scenario, progress: Progress) -> Result<RunResult, RunErro
     let started = std::time::Instant::now();
     let work = || match scenario.solver.mode {
         Mode::Direct => direct::run(scenario, progress),
-        Mode::Matrix => Err(RunError::Input(
-            "matrix mode is not available in this build yet; set `mode = \"direct\"` in [solver]"
-                .into(),
-        )),
+        Mode::Matrix => matrix::run(scenario, progress),
     };
     let mut result = match scenario.solver.threads {
         Some(n) => rayon::ThreadPoolBuilder::new()

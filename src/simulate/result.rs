@@ -211,7 +211,7 @@ impl RunResult {
             value: w.abandoned,
             std_error: 0.0,
         });
-        if abandoned.iter().any(|a| a.value > 0.0) {
+        if abandoned.iter().any(|a| a.value.abs() > 1e-9) {
             push_loss("abandoned rays (numerics)".into(), abandoned, &mut losses);
         }
         for l in &losses[2..] {
