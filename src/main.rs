@@ -30,6 +30,10 @@ enum Command {
     Run(cli::run::RunArgs),
     /// Run several scenarios and compare them side by side (table, plots, HTML).
     Compare(cli::compare::CompareArgs),
+    /// Vary numeric scenario keys over a grid (resumable, shardable over machines).
+    Sweep(cli::sweep::SweepArgs),
+    /// Gather the points of sweep shards into one folder and table.
+    Merge(cli::sweep::MergeArgs),
     /// Lambertian (4n²) limit, exact Lambertian, single and double pass references for a wafer.
     Limit(cli::limit::LimitArgs),
 }
@@ -43,6 +47,8 @@ fn main() -> ExitCode {
         Command::Surface(args) => cli::surface::run(args),
         Command::Run(args) => cli::run::run(args),
         Command::Compare(args) => cli::compare::run(args),
+        Command::Sweep(args) => cli::sweep::run(args),
+        Command::Merge(args) => cli::sweep::merge(args),
         Command::Limit(args) => cli::limit::run(args),
     };
     match outcome {

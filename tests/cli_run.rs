@@ -220,3 +220,102 @@ fn matrix_mode_agrees_with_direct_mode_on_the_absorber_current() {
         j[1]
     );
 }
+
+#[test]
+fn sweep_is_resumable_and_shards_merge_into_the_same_table() {
+    let dir = tempfile::tempdir().unwrap();
+    let scen = dir.path().join("s.toml");
+    std::fs::write(&scen, SMALL.replace("rays = 3000", "rays = 800")).unwrap();
+    let s = scen.to_str().unwrap();
+    let vary = "stack.wafer.thickness_um=60:180:3";
+    let full = dir.path().join("full");
+    let out = lightfold(&[
+        "sweep",
+        s,
+        "--vary",
+        vary,
+        "-o",
+        full.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let table = |d: &std::path::Path| {
+        let t = std::fs::read_to_string(d.join("sweep.csv")).unwrap();
+        t.lines().skip(1).map(String::from).collect::<Vec<_>>()
+    };
+    let t_full = table(&full);
+    assert_eq!(t_full.len(), 4, "header + 3 points");
+    // Thicker wafers absorb more (common practice, no source).
+    let j: Vec<f64> = t_full[1..]
+        .iter()
+        .map(|l| l.split(',').nth(1).unwrap().parse().unwrap())
+        .collect();
+    assert!(j[2] > j[0], "{j:?}");
+    // A rerun skips finished points: a point file left alone keeps its modification time.
+    let p0 = full.join("points").join("point-000000.json");
+    let before = std::fs::metadata(&p0).unwrap().modified().unwrap();
+    assert!(
+        lightfold(&[
+            "sweep",
+            s,
+            "--vary",
+            vary,
+            "-o",
+            full.to_str().unwrap(),
+            "--quiet"
+        ])
+        .status
+        .success()
+    );
+    assert_eq!(std::fs::metadata(&p0).unwrap().modified().unwrap(), before);
+    // Shards 1/2 and 2/2, merged, give the same table.
+    let (a, b, m) = (
+        dir.path().join("a"),
+        dir.path().join("b"),
+        dir.path().join("m"),
+    );
+    for (k, d) in [("1/2", &a), ("2/2", &b)] {
+        assert!(
+            lightfold(&[
+                "sweep",
+                s,
+                "--vary",
+                vary,
+                "--shard",
+                k,
+                "-o",
+                d.to_str().unwrap(),
+                "--quiet"
+            ])
+            .status
+            .success()
+        );
+    }
+    assert!(
+        lightfold(&[
+            "merge",
+            a.to_str().unwrap(),
+            b.to_str().unwrap(),
+            "-o",
+            m.to_str().unwrap()
+        ])
+        .status
+        .success()
+    );
+    assert_eq!(table(&m)[1..], t_full[1..]);
+    // A key that does not exist: exit 1, with a suggestion.
+    let out = lightfold(&[
+        "sweep",
+        s,
+        "--vary",
+        "stack.wafer.thicknes_um=1:2:2",
+        "-o",
+        dir.path().join("x").to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("thickness_um"));
+}

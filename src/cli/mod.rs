@@ -8,6 +8,7 @@ pub mod materials;
 pub mod progress;
 pub mod run;
 pub mod surface;
+pub mod sweep;
 
 /// Why a command failed, mapped to the process exit code.
 #[derive(Debug, thiserror::Error)]
