@@ -30,6 +30,8 @@ enum Command {
     Run(cli::run::RunArgs),
     /// Run several scenarios and compare them side by side (table, plots, HTML).
     Compare(cli::compare::CompareArgs),
+    /// Export a scenario's redistribution matrices (NPY + JSON sidecar) for other solvers.
+    Matrices(cli::matrices::MatricesArgs),
     /// Vary numeric scenario keys over a grid (resumable, shardable over machines).
     Sweep(cli::sweep::SweepArgs),
     /// Gather the points of sweep shards into one folder and table.
@@ -47,6 +49,7 @@ fn main() -> ExitCode {
         Command::Surface(args) => cli::surface::run(args),
         Command::Run(args) => cli::run::run(args),
         Command::Compare(args) => cli::compare::run(args),
+        Command::Matrices(args) => cli::matrices::run(args),
         Command::Sweep(args) => cli::sweep::run(args),
         Command::Merge(args) => cli::sweep::merge(args),
         Command::Limit(args) => cli::limit::run(args),

@@ -319,3 +319,40 @@ fn sweep_is_resumable_and_shards_merge_into_the_same_table() {
     assert_eq!(out.status.code(), Some(1));
     assert!(String::from_utf8_lossy(&out.stderr).contains("thickness_um"));
 }
+
+#[test]
+fn matrices_exports_sidecars_that_read_back() {
+    let dir = tempfile::tempdir().unwrap();
+    let scen = dir.path().join("s.toml");
+    let text = SMALL.replace("500:1100:200", "600:800:200").replace(
+        "rays = 3000",
+        "rays = 2048\npolar_bins = 6\nazimuth_bins = 4",
+    );
+    std::fs::write(&scen, text).unwrap();
+    let out_dir = dir.path().join("mx");
+    let out = lightfold(&[
+        "matrices",
+        scen.to_str().unwrap(),
+        "-o",
+        out_dir.to_str().unwrap(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let sidecars: Vec<_> = std::fs::read_dir(&out_dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "json"))
+        .collect();
+    assert_eq!(
+        sidecars.len(),
+        4,
+        "2 interfaces × 2 wavelengths: {sidecars:?}"
+    );
+    for s in sidecars {
+        let m = lightfold::redistribution::InterfaceMatrices::read(&s).unwrap();
+        assert!(m.audit.energy_max_abs < 1e-9, "{}", s.display());
+    }
+}

@@ -5,6 +5,7 @@ pub mod compare;
 pub mod film;
 pub mod limit;
 pub mod materials;
+pub mod matrices;
 pub mod progress;
 pub mod run;
 pub mod surface;

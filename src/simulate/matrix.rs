@@ -23,10 +23,15 @@ fn exact(value: f64) -> Estimate {
     }
 }
 
+/// Receives each interface's matrices as they are built: (interface name, wavelength, matrices).
+pub type MatrixSink<'a> =
+    &'a (dyn Fn(&str, f64, &InterfaceMatrices) -> Result<(), RunError> + Sync);
+
 fn one_wavelength(
     scenario: &Scenario,
     index: usize,
     wl: f64,
+    sink: Option<MatrixSink>,
 ) -> Result<WavelengthResult, RunError> {
     let optics = optics_at(scenario, wl)?;
     let solver = &scenario.solver;
@@ -105,6 +110,9 @@ fn one_wavelength(
             let key = crate::sampling::job_key(index as u32, i as u32 + 1);
             textured_matrices(&surface, setup, rays_per_bin, solver.seed, key).map_err(input)?
         };
+        if let Some(sink) = sink {
+            sink(&spec.name, wl, &m)?;
+        }
         elements.push(StackElement::Interface(Box::new(m)));
         if i + 1 < n_if {
             let l = layers[i];
@@ -188,13 +196,23 @@ fn one_wavelength(
 
 /// Runs every wavelength in matrix mode.
 pub fn run(scenario: &Scenario, progress: Progress) -> Result<RunResult, RunError> {
+    run_with(scenario, progress, None)
+}
+
+/// Runs every wavelength in matrix mode and hands every interface's matrices to `sink`
+/// (used by `lightfold matrices` to export them).
+pub fn run_with(
+    scenario: &Scenario,
+    progress: Progress,
+    sink: Option<MatrixSink>,
+) -> Result<RunResult, RunError> {
     let grid = scenario.light.wavelengths.as_slice();
     let done = std::sync::atomic::AtomicUsize::new(0);
     let per: Vec<Result<WavelengthResult, RunError>> = grid
         .par_iter()
         .enumerate()
         .map(|(i, &wl)| {
-            let r = one_wavelength(scenario, i, wl);
+            let r = one_wavelength(scenario, i, wl, sink);
             progress(
                 done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
                 grid.len(),

@@ -9,7 +9,7 @@
 //! Invariant: for every wavelength R + ΣA + T (+ abandoned) = 1 to round-off in the accounting.
 
 mod direct;
-mod matrix;
+pub mod matrix;
 mod result;
 
 pub use result::{Current, Loss, RunResult, WavelengthResult};
