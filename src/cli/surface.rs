@@ -9,8 +9,8 @@ use lightfold::optics::materials::{self, Material};
 use lightfold::texture::{self, Texture};
 use lightfold::thinfilm::{FilmStack, Layer};
 use lightfold::tracer::{
-    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, Incidence, InputPolarisation,
-    PolarisationMode, Surface, Tally,
+    BareInterface, COS_111_TILT, CoatedInterface, CoatingGeometry, FacetResponse, Incidence,
+    InputPolarisation, PolarisationMode, Surface, Tally,
 };
 use serde::Serialize;
 use std::path::{Path, PathBuf};
@@ -182,7 +182,7 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
             })
         } else {
             Box::new(
-                CoatedInterface::new(&stack, wl, geometry, &[1.0, 0.577_350_269_189_625_8])
+                CoatedInterface::new(&stack, wl, geometry, &[1.0, COS_111_TILT])
                     .map_err(|e| Failure::BadInput(e.to_string()))?,
             )
         };
@@ -291,14 +291,15 @@ pub fn load_texture(spec: &str) -> Result<Box<dyn Texture>, Failure> {
         return texture::from_file(path).map_err(bad);
     }
     if !spec.contains(',') && !spec.contains('=') {
-        for base in [
-            PathBuf::from("geometries"),
-            Path::new(env!("CARGO_MANIFEST_DIR")).join("geometries"),
-        ] {
-            let candidate = base.join(format!("{spec}.toml"));
-            if candidate.is_file() {
-                return texture::from_file(&candidate).map_err(bad);
+        // The same search as scenario files use: ./geometries, the project's, then built-ins.
+        match lightfold::scenario::find_geometry(spec, Some(Path::new("."))) {
+            Ok(lightfold::scenario::GeometrySource::File(path)) => {
+                return texture::from_file(&path).map_err(bad);
             }
+            Ok(lightfold::scenario::GeometrySource::Embedded(name, text)) => {
+                return texture::from_toml_str(text, Path::new(name)).map_err(bad);
+            }
+            Err(_) => {}
         }
         if spec.ends_with(".toml") || spec.contains('/') {
             return Err(Failure::BadInput(format!(

@@ -7,14 +7,10 @@ use crate::optics::Index;
 use crate::scenario::{RayBudget, Scenario};
 use crate::thinfilm::{FilmStack, Layer};
 use crate::tracer::{
-    BareInterface, CoatedInterface, Estimate, FacetResponse, Incidence, Surface, ThickLayer,
-    WaferModel, WaferTally,
+    BareInterface, COS_111_TILT, CoatedInterface, FacetResponse, Incidence, Surface, ThickLayer,
+    WaferModel,
 };
 use rayon::prelude::*;
-
-/// Cosine of the {111} facet tilt on (100) silicon, 54.7356°: directional coatings are
-/// tabulated at this tilt and at 0° (flat); other tilts use the nearer of the two.
-const COS_111_TILT: f64 = 0.577_350_269_189_625_8;
 
 /// Assumptions of the direct mode, stated in every output.
 pub fn assumptions() -> Vec<String> {
@@ -115,10 +111,6 @@ pub(super) fn response(
     Ok(Box::new(coated))
 }
 
-fn estimate(t: &WaferTally, m: &crate::tracer::Moments) -> Estimate {
-    t.estimate(m)
-}
-
 /// Traces one wavelength.
 fn one_wavelength(
     scenario: &Scenario,
@@ -169,9 +161,9 @@ fn one_wavelength(
     };
     let n_rays = t.rays.max(1) as f64;
     let absorber = scenario.absorber;
-    let a = estimate(&t, &t.layers[absorber]);
-    let r = estimate(&t, &t.reflected);
-    let esc = estimate(&t, &t.escape);
+    let a = t.estimate(&t.layers[absorber]);
+    let r = t.estimate(&t.reflected);
+    let esc = t.estimate(&t.escape);
     let thickness = optics.layers[absorber].thickness_um;
     let k = optics.absorber_index.im;
     let limits =
@@ -187,7 +179,7 @@ fn one_wavelength(
         .enumerate()
         .map(|(i, spec)| {
             (0..spec.coating.len())
-                .map(|l| estimate(&t, &t.films[i][l]))
+                .map(|l| t.estimate(&t.films[i][l]))
                 .collect()
         })
         .collect();
@@ -195,8 +187,8 @@ fn one_wavelength(
         wavelength_nm,
         reflectance: r,
         escape: esc,
-        transmittance: estimate(&t, &t.transmitted),
-        layers: t.layers.iter().map(|m| estimate(&t, m)).collect(),
+        transmittance: t.estimate(&t.transmitted),
+        layers: t.layers.iter().map(|m| t.estimate(m)).collect(),
         films,
         abandoned: t.abandoned.sum / n_rays,
         rays: t.rays,

@@ -12,8 +12,8 @@ pub mod tally;
 pub mod wafer_trace;
 
 pub use response::{
-    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample, MAX_FILM_LAYERS,
-    Side,
+    BareInterface, COS_111_TILT, CoatedInterface, CoatingGeometry, FacetResponse, FacetSample,
+    MAX_FILM_LAYERS, Side,
 };
 pub use surface::{
     BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, RAYS_PER_CHUNK,

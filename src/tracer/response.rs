@@ -145,6 +145,10 @@ impl FacetResponse for BareInterface {
     }
 }
 
+/// Cosine of the {111} facet tilt on (100) silicon, atan(√2) = 54.7356° (1/√3): callers
+/// tabulate directional coatings at this tilt and at 0° (flat); other tilts use the nearer.
+pub const COS_111_TILT: f64 = 0.577_350_269_189_625_8;
+
 /// How film thickness varies over a textured surface.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 pub enum CoatingGeometry {
@@ -279,6 +283,14 @@ impl FacetResponse for CoatedInterface {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn cos_111_tilt_matches_the_silicon_facet_angle() {
+        let c = crate::texture::SI_111_ANGLE_DEG.to_radians().cos();
+        assert!(
+            (COS_111_TILT - c).abs() < 1e-6 && (COS_111_TILT - 3f64.sqrt().recip()).abs() < 1e-15
+        );
+    }
 
     #[test]
     fn normal_incidence_reflectance_is_textbook() {
