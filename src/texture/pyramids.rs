@@ -32,6 +32,12 @@ pub const FLAT_FACET: u32 = 4;
 /// surface), relative to the feature size.
 const PAD_REL: f64 = 1e-9;
 
+/// Margin of the closed-form fast path relative to the feature size (period + height): a
+/// crossing is decided there only if every root, cell wall and excursion depth involved is
+/// farther than this from deciding differently; otherwise the robust walk decides. Kept
+/// below `PAD_REL`, so a ray leaving a facet at the slab's edge still clears the margin.
+const FAST_MARGIN_REL: f64 = 1e-10;
+
 /// Parameters of a regular pyramid texture (file keys of the same names).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct RegularPyramidsSpec {
@@ -87,6 +93,10 @@ pub struct RegularPyramids {
     tol: f64,
     /// Excursion depth tolerance (see [`super::cell_entry`]), µm.
     depth: f64,
+    /// Facet slope tan α.
+    tan: f64,
+    /// Margin of the closed-form fast path ([`RegularPyramids::fast_crossing`]), µm.
+    margin: f64,
 }
 
 /// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
@@ -210,6 +220,8 @@ impl RegularPyramids {
             pad: PAD_REL * (spec.period_um + height),
             tol: on_plane_tol((1.0 + tan_a) * spec.period_um + 2.0 * height),
             depth: super::depth_tol((1.0 + tan_a) * spec.period_um + 2.0 * height),
+            tan: tan_a,
+            margin: FAST_MARGIN_REL * (spec.period_um + height),
         })
     }
 
@@ -336,60 +348,183 @@ impl RegularPyramids {
         }
     }
 
-    /// Gaps of the ray to the five planes of cell (i, j), with the leaving facet pinned.
+    /// The hit of a crossing at ray parameter `t` on `facet` of lattice cell (i, j): the point
+    /// wrapped into the unit cell and snapped onto the surface, in the lab frame.
     #[inline(always)]
-    fn gaps(
+    fn hit_at(&self, o: Vec3, d: Vec3, t: f64, i: i64, j: i64, facet: u32) -> Hit {
+        let (cx, cy) = (i as f64 * self.period, j as f64 * self.period);
+        let p = o + t * d;
+        let (x, _) = clamp_into(p.x - cx, self.period);
+        let (y, _) = clamp_into(p.y - cy, self.period);
+        let (z, active) = self.surface(x, y);
+        let err = snapped_err(x, y, self.planes[active].z_err(x, y));
+        let (point, p_err) = if self.rotated {
+            let (c, s) = (self.cos_r, self.sin_r);
+            let point = Vec3::new(c * x - s * y, s * x + c * y, z);
+            let rot_err = gamma(3) * (x.abs() + y.abs());
+            (point, Vec3::new(rot_err, rot_err, err.z))
+        } else {
+            (Vec3::new(x, y, z), err)
+        };
+        facet_hit(t, point, p_err, self.normals[facet as usize], facet)
+    }
+
+    /// Closed-form crossing for the common case, in the lattice frame: `Some(Some((t, i, j,
+    /// facet)))` a crossing, `Some(None)` none before the ray leaves the slab, `None`
+    /// undecided (the robust walk of [`Texture::intersect`] then decides).
+    ///
+    /// Same geometry as the robust walk (the below-surface set of each cell as at most two
+    /// spans of t bounded by plane roots), without its rounding analysis: an answer is given
+    /// only when every decision has a margin of `self.margin` (10⁻¹⁰ of the feature size) —
+    /// the ray is clearly on its side at each cell's entry, the crossing is clearly inside the
+    /// cell and away from every other plane's root (edges, valleys, feet), and the ray then
+    /// goes clearly deeper than the margin. Rounding errors are ~10⁻¹⁵ of the feature size,
+    /// so where it answers, the robust walk gives the same crossing; it declines for rays
+    /// starting inside the slab without a facet to leave, rays along a plane, and anything
+    /// within the margin of an edge or wall (a fraction ~10⁻⁹ of facet events in practice).
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn fast_crossing(
         &self,
         o: Vec3,
-        faces: &SquareFaces,
-        ground: Gap,
-        i: i64,
-        j: i64,
+        d: Vec3,
         skip: Option<u32>,
-    ) -> [Gap; 5] {
-        let dx = (o.x - i as f64 * self.period) - self.centre;
-        let dy = (o.y - j as f64 * self.period) - self.centre;
-        let [g0, g1, g2, g3] = faces.gaps(dx, dy, o.z, self.height, self.tol);
-        let mut g = [g0, g1, g2, g3, ground];
-        if let Some(k) = skip
-            && k < FLAT_FACET
-            && i == 0
-            && j == 0
-        {
-            g[k as usize] = g[k as usize].on_plane();
-        }
-        g
-    }
-}
-
-impl Texture for RegularPyramids {
-    fn period_um(&self) -> [f64; 2] {
-        [self.period; 2]
-    }
-
-    fn lattice_um(&self) -> [[f64; 2]; 2] {
-        let p = self.period;
-        [
-            [p * self.cos_r, p * self.sin_r],
-            [-p * self.sin_r, p * self.cos_r],
-        ]
-    }
-
-    fn z_range_um(&self) -> [f64; 2] {
-        if self.spec.inverted {
-            [-self.height, 0.0]
+        t_start: f64,
+        t_end: f64,
+        z_lo: f64,
+        z_hi: f64,
+    ) -> Option<Option<(f64, i64, i64, u32)>> {
+        let inv = self.spec.inverted;
+        let tan = self.tan;
+        let (sx, sy) = if inv {
+            (-tan * d.x, -tan * d.y)
         } else {
-            [0.0, self.height]
+            (tan * d.x, tan * d.y)
+        };
+        let e = [d.z + sx, d.z - sx, d.z + sy, d.z - sy, d.z];
+        if e.contains(&0.0) {
+            return None;
         }
+        let above = if o.z > z_hi {
+            true
+        } else if o.z < z_lo {
+            false
+        } else {
+            e[skip? as usize] > 0.0
+        };
+        let ie = e.map(|v| 1.0 / v);
+        let m = self.margin;
+        let skip_face = skip.filter(|&k| k < FLAT_FACET);
+        let cg = if skip == Some(FLAT_FACET) { 0.0 } else { o.z };
+        let rg = -cg * ie[4];
+        // Below ground: (−∞, rg) moving up, [rg, ∞) moving down.
+        let ground = if d.z > 0.0 {
+            Lean::new(f64::NEG_INFINITY, rg, FLAT_FACET, FLAT_FACET)
+        } else {
+            Lean::new(rg, f64::INFINITY, FLAT_FACET, FLAT_FACET)
+        };
+        let mut walk = GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY);
+        for cell in walk.by_ref() {
+            let dx = (o.x - cell.i as f64 * self.period) - self.centre;
+            let dy = (o.y - cell.j as f64 * self.period) - self.centre;
+            let (u, v) = (tan * dx, tan * dy);
+            let (q, u, v) = if inv {
+                (o.z + self.height, -u, -v)
+            } else {
+                (o.z - self.height, u, v)
+            };
+            let mut c = [q + u, q - u, q + v, q - v];
+            // The plane the ray leaves, its root pinned at t = 0 (the flat one in every cell).
+            let mut pinned = if cg == 0.0 { FLAT_FACET } else { u32::MAX };
+            if let Some(k) = skip_face
+                && cell.i == 0
+                && cell.j == 0
+            {
+                c[k as usize] = 0.0;
+                pinned = k;
+            }
+            let r = [
+                -c[0] * ie[0],
+                -c[1] * ie[1],
+                -c[2] * ie[2],
+                -c[3] * ie[3],
+                rg,
+            ];
+            // The cone: below all four faces (upright) or above all four (inverted pit).
+            let mut cone = Lean::new(f64::NEG_INFINITY, f64::INFINITY, u32::MAX, u32::MAX);
+            for k in 0..4 {
+                if (e[k] < 0.0) != inv {
+                    if r[k] > cone.s {
+                        (cone.s, cone.ts) = (r[k], k as u32);
+                    }
+                } else if r[k] < cone.e {
+                    (cone.e, cone.te) = (r[k], k as u32);
+                }
+            }
+            if cone.e > cone.s && cone.e - cone.s <= m {
+                return None; // grazing an edge or tip
+            }
+            let spans = if inv {
+                if cone.s >= cone.e {
+                    [ground, Lean::EMPTY]
+                } else {
+                    [
+                        Lean::new(ground.s, ground.e.min(cone.s), FLAT_FACET, {
+                            if cone.s < ground.e {
+                                cone.ts
+                            } else {
+                                FLAT_FACET
+                            }
+                        }),
+                        Lean::new(
+                            ground.s.max(cone.e),
+                            ground.e,
+                            if cone.e > ground.s {
+                                cone.te
+                            } else {
+                                FLAT_FACET
+                            },
+                            FLAT_FACET,
+                        ),
+                    ]
+                }
+            } else {
+                [ground, cone]
+            };
+            let (t0, t1) = (cell.t0, cell.t1);
+            let crossing = if above {
+                lean_entry(&spans, t0, t1, m, &e, pinned)?
+            } else {
+                lean_exit(&spans, t0, t1, m, &e, pinned)?
+            };
+            let Some((t, tag)) = crossing else { continue };
+            // Away from every other plane's root: not at an edge, valley, foot or rim.
+            for (k, &rk) in r.iter().enumerate() {
+                if k as u32 != tag && (rk - t).abs() <= m {
+                    return None;
+                }
+            }
+            return Some(Some((t, cell.i, cell.j, tag)));
+        }
+        if walk.exhausted() {
+            return None;
+        }
+        Some(None)
     }
 
-    fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit> {
-        let o = self.to_lattice(origin);
-        let d = self.to_lattice(dir);
-        let [z_min, z_max] = self.z_range_um();
-        let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
-        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
-        let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+    /// The robust walk (see the module docs of [`crate::texture`]): decides every case the
+    /// fast path leaves open, in the lattice frame.
+    #[allow(clippy::too_many_arguments)]
+    fn robust_crossing(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        t_start: f64,
+        t_end: f64,
+        z_lo: f64,
+        z_hi: f64,
+    ) -> Option<Hit> {
         let tan_a = self.planes[1].a.abs();
         let faces = SquareFaces::new(tan_a, d, self.spec.inverted);
         // The base plane is the same in every cell.
@@ -453,24 +588,191 @@ impl Texture for RegularPyramids {
             let delta = PROBE_REL * self.period;
             let ((ci, cj), facet) =
                 crossed_facet(&entry, first_cell, (cell.i, cell.j), delta, probe, ok);
-            let (cx, cy) = (ci as f64 * self.period, cj as f64 * self.period);
-            let p = o + t * d;
-            let (x, _) = clamp_into(p.x - cx, self.period);
-            let (y, _) = clamp_into(p.y - cy, self.period);
-            let (z, active) = self.surface(x, y);
-            let err = snapped_err(x, y, self.planes[active].z_err(x, y));
-            let (point, p_err) = if self.rotated {
-                let (c, s) = (self.cos_r, self.sin_r);
-                let point = Vec3::new(c * x - s * y, s * x + c * y, z);
-                let rot_err = gamma(3) * (x.abs() + y.abs());
-                (point, Vec3::new(rot_err, rot_err, err.z))
-            } else {
-                (Vec3::new(x, y, z), err)
-            };
-            let normal = self.normals[facet as usize];
-            return Some(facet_hit(t, point, p_err, normal, facet));
+            return Some(self.hit_at(o, d, t, ci, cj, facet));
         }
         None
+    }
+
+    /// Gaps of the ray to the five planes of cell (i, j), with the leaving facet pinned.
+    #[inline(always)]
+    fn gaps(
+        &self,
+        o: Vec3,
+        faces: &SquareFaces,
+        ground: Gap,
+        i: i64,
+        j: i64,
+        skip: Option<u32>,
+    ) -> [Gap; 5] {
+        let dx = (o.x - i as f64 * self.period) - self.centre;
+        let dy = (o.y - j as f64 * self.period) - self.centre;
+        let [g0, g1, g2, g3] = faces.gaps(dx, dy, o.z, self.height, self.tol);
+        let mut g = [g0, g1, g2, g3, ground];
+        if let Some(k) = skip
+            && k < FLAT_FACET
+            && i == 0
+            && j == 0
+        {
+            g[k as usize] = g[k as usize].on_plane();
+        }
+        g
+    }
+}
+
+/// A span [s, e) of the ray parameter with the planes bounding it (the fast path's light
+/// counterpart of [`Span`]; empty when s ≥ e).
+#[derive(Clone, Copy, Debug)]
+struct Lean {
+    s: f64,
+    e: f64,
+    ts: u32,
+    te: u32,
+}
+
+impl Lean {
+    const EMPTY: Lean = Lean::new(f64::INFINITY, f64::NEG_INFINITY, u32::MAX, u32::MAX);
+
+    #[inline(always)]
+    const fn new(s: f64, e: f64, ts: u32, te: u32) -> Lean {
+        Lean { s, e, ts, te }
+    }
+
+    #[inline(always)]
+    fn is_empty(&self) -> bool {
+        self.s >= self.e
+    }
+}
+
+/// |dG/dt| of plane `tag` (∞ for an unbounded end).
+#[inline(always)]
+fn rate(e: &[f64; 5], tag: u32) -> f64 {
+    e.get(tag as usize).map_or(f64::INFINITY, |v| v.abs())
+}
+
+/// Fast path, ray above the surface at `t0`: `Some(Some((t, plane)))` where it enters the
+/// union of `spans` in [t0, t1] and goes deeper than `m`, `Some(None)` no entry in the cell,
+/// `None` undecided (something within `m` of deciding differently).
+#[inline(always)]
+fn lean_entry(
+    spans: &[Lean; 2],
+    t0: f64,
+    t1: f64,
+    m: f64,
+    e: &[f64; 5],
+    pinned: u32,
+) -> Option<Option<(f64, u32)>> {
+    let mut best: Option<&Lean> = None;
+    for sp in spans {
+        // A span that ended before t0 — at t0 itself only if through the plane just left.
+        if sp.is_empty() || sp.e < t0 - m || (sp.e <= t0 && sp.te == pinned) {
+            continue;
+        }
+        if sp.s <= t0 + m || sp.e - sp.s <= m {
+            return None; // inside (or nearly) at the cell's entry, or a sliver
+        }
+        if best.is_none_or(|b| sp.s < b.s) {
+            best = Some(sp);
+        }
+    }
+    let Some(b) = best else { return Some(None) };
+    if b.s > t1 + m {
+        return Some(None);
+    }
+    if b.s >= t1 - m {
+        return None;
+    }
+    let depth = rate(e, b.ts).min(rate(e, b.te)) * (b.e.min(t1) - b.s);
+    (depth > m).then_some(Some((b.s, b.ts)))
+}
+
+/// Fast path, ray below the surface at `t0`: where it leaves the union of `spans` (as
+/// [`lean_entry`]).
+#[inline(always)]
+fn lean_exit(
+    spans: &[Lean; 2],
+    t0: f64,
+    t1: f64,
+    m: f64,
+    e: &[f64; 5],
+    pinned: u32,
+) -> Option<Option<(f64, u32)>> {
+    let mut exit: Option<(f64, u32)> = None;
+    for sp in spans {
+        if sp.is_empty() {
+            continue;
+        }
+        // Entered at t0 itself only through the plane just left.
+        let from_pinned = sp.ts == pinned && sp.s <= t0;
+        let near = |v: f64| (v - t0).abs() <= m;
+        if (near(sp.s) && !from_pinned) || near(sp.e) {
+            return None;
+        }
+        if (sp.s < t0 || from_pinned) && t0 < sp.e && exit.is_none_or(|(x, _)| sp.e > x) {
+            exit = Some((sp.e, sp.te));
+        }
+    }
+    let (mut x, mut tag) = exit?;
+    // A span overlapping the one left extends the stay below.
+    for sp in spans {
+        if sp.is_empty() || sp.e <= x {
+            continue;
+        }
+        if (sp.s - x).abs() <= m || (sp.e - x).abs() <= m {
+            return None;
+        }
+        if sp.s < x {
+            (x, tag) = (sp.e, sp.te);
+        }
+    }
+    if x > t1 + m {
+        return Some(None);
+    }
+    if x >= t1 - m {
+        return None;
+    }
+    let mut back = (t1, f64::INFINITY);
+    for sp in spans {
+        if !sp.is_empty() && sp.s > x && sp.s < back.0 {
+            back = (sp.s, rate(e, sp.ts));
+        }
+    }
+    let depth = rate(e, tag).min(back.1) * (back.0 - x);
+    (depth > m).then_some(Some((x, tag)))
+}
+
+impl Texture for RegularPyramids {
+    fn period_um(&self) -> [f64; 2] {
+        [self.period; 2]
+    }
+
+    fn lattice_um(&self) -> [[f64; 2]; 2] {
+        let p = self.period;
+        [
+            [p * self.cos_r, p * self.sin_r],
+            [-p * self.sin_r, p * self.cos_r],
+        ]
+    }
+
+    fn z_range_um(&self) -> [f64; 2] {
+        if self.spec.inverted {
+            [-self.height, 0.0]
+        } else {
+            [0.0, self.height]
+        }
+    }
+
+    fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit> {
+        let o = self.to_lattice(origin);
+        let d = self.to_lattice(dir);
+        let [z_min, z_max] = self.z_range_um();
+        let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
+        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
+        let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+        match self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi) {
+            Some(Some((t, i, j, facet))) => Some(self.hit_at(o, d, t, i, j, facet)),
+            Some(None) => None,
+            None => self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi),
+        }
     }
 
     fn symmetry(&self) -> Symmetry {
@@ -502,6 +804,7 @@ impl Texture for RegularPyramids {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::geometry::robust::offset_origin;
 
     #[test]
     fn vertical_rays_land_on_the_height_function() {
@@ -529,6 +832,95 @@ mod tests {
                     .unwrap();
                 assert!((b.point.z - h.point.z).abs() < 1e-12);
             }
+        }
+    }
+
+    /// The fast path must give the robust walk's crossing wherever it decides, and decide
+    /// almost everywhere: rays from above and below at random angles, and rays leaving each
+    /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
+    /// lattices.
+    #[test]
+    fn fast_path_agrees_with_the_robust_walk() {
+        use crate::sampling::Stream;
+        let specs = [
+            RegularPyramidsSpec::upright(5.0),
+            RegularPyramidsSpec::inverted(8.0, 10.0),
+            RegularPyramidsSpec {
+                period_um: 7.0,
+                rotation_deg: 30.0,
+                ..RegularPyramidsSpec::upright(5.0)
+            },
+            RegularPyramidsSpec {
+                base_angle_deg: 40.0,
+                rotation_deg: 45.0,
+                ..RegularPyramidsSpec::inverted(3.0, 3.0)
+            },
+        ];
+        for (n, spec) in specs.into_iter().enumerate() {
+            let tex = RegularPyramids::new(spec).unwrap();
+            let mut rng = Stream::new(11, n as u64, 0);
+            let [z_min, z_max] = tex.z_range_um();
+            let (z_lo, z_hi) = (z_min - tex.pad, z_max + tex.pad);
+            let (mut decided, mut total) = (0usize, 0usize);
+            for _ in 0..4000 {
+                let from_above = rng.uniform() < 0.5;
+                let mut dir = rng.cosine_hemisphere();
+                let mut origin = Vec3::new(
+                    rng.uniform() * 20.0,
+                    rng.uniform() * 20.0,
+                    if from_above { z_max + 0.1 } else { z_min - 0.1 },
+                );
+                if from_above {
+                    dir.z = -dir.z;
+                }
+                let mut skip = None;
+                for _ in 0..6 {
+                    let (o, d) = (tex.to_lattice(origin), tex.to_lattice(dir));
+                    let Some((t_start, t_end)) = slab_interval(o.z, d.z, z_lo, z_hi) else {
+                        break;
+                    };
+                    let sk = skip.map(|f: FacetId| f.0);
+                    let robust = tex.robust_crossing(o, d, sk, t_start, t_end, z_lo, z_hi);
+                    total += 1;
+                    if let Some(fast) = tex.fast_crossing(o, d, sk, t_start, t_end, z_lo, z_hi) {
+                        decided += 1;
+                        let fast = fast.map(|(t, i, j, k)| tex.hit_at(o, d, t, i, j, k));
+                        match (fast, robust) {
+                            (None, None) => {}
+                            (Some(f), Some(r)) => {
+                                assert_eq!(f.facet, r.facet, "spec {n}");
+                                assert!((f.t - r.t).abs() <= 1e-12 * (1.0 + r.t), "spec {n}");
+                                assert!((f.point - r.point).length() < 1e-9, "spec {n}");
+                            }
+                            (f, r) => panic!("spec {n}: fast {f:?} vs robust {r:?}"),
+                        }
+                    } else if std::env::var("LF_DEBUG").is_ok() {
+                        eprintln!("undecided spec {n}: o {o:?} d {d:?} skip {sk:?} robust {robust:?}");
+                    }
+                    let Some(h) = robust else { break };
+                    // Leave by a mirror turn or a random turn into the other side.
+                    let k_dot_n = dir.dot(h.normal);
+                    let new_dir = if rng.uniform() < 0.5 {
+                        dir - 2.0 * k_dot_n * h.normal
+                    } else {
+                        let mut l = rng.cosine_hemisphere();
+                        if k_dot_n > 0.0 {
+                            l.z = -l.z;
+                        }
+                        l
+                    };
+                    if new_dir.dot(h.normal).abs() < 1e-6 {
+                        break;
+                    }
+                    origin = offset_origin(h.point, h.p_err, h.normal, new_dir);
+                    dir = new_dir;
+                    skip = Some(h.facet);
+                }
+            }
+            assert!(
+                decided as f64 > 0.9999 * total as f64,
+                "spec {n}: fast path decided only {decided} of {total}"
+            );
         }
     }
 
