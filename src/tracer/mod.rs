@@ -16,8 +16,8 @@ pub use response::{
     MAX_FILM_LAYERS, Side,
 };
 pub use surface::{
-    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, PolarisationMode, RAYS_PER_CHUNK,
-    Surface,
+    BulkSink, Clear, ExitObserver, Incidence, InputPolarisation, Launcher, PolarisationMode,
+    RAYS_PER_CHUNK, Surface,
 };
 pub use tally::{Estimate, Moments, Tally};
 pub use wafer_trace::{ThickLayer, WaferModel, WaferModelError, WaferTally};

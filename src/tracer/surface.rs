@@ -313,29 +313,32 @@ impl<'a> Surface<'a> {
         }
     }
 
-    /// A random point in the unit cell just outside the texture's height range on `side`
-    /// (by 1e-6 of the feature size, so the first intersection is never at t = 0).
-    pub fn entry_point(&self, side: Side, rng: &mut Stream) -> Vec3 {
+    /// Height just outside the texture's range on `side` (by 1e-6 of the feature size, so
+    /// the first intersection is never at t = 0), µm.
+    fn entry_height(&self, side: Side) -> f64 {
         let [px, py] = self.texture.period_um();
         let [z_lo, z_hi] = self.texture.z_range_um();
         let margin = 1e-6 * (1.0 + px.max(py) + (z_hi - z_lo));
-        let z = match side {
+        match side {
             Side::Above => z_hi + margin,
             Side::Below => z_lo - margin,
-        };
-        // Uniform over the unit cell u·a + v·b (rotated for rotated lattices).
-        let [a, b] = self.texture.lattice_um();
-        let (u, v) = (rng.uniform(), rng.uniform());
-        Vec3::new(u * a[0] + v * b[0], u * a[1] + v * b[1], z)
+        }
     }
 
-    /// Starts a ray for `incidence` at a random position in the unit cell.
-    pub fn launch(&self, incidence: &Incidence, rng: &mut Stream) -> Ray {
+    /// A random point in the unit cell just outside the texture's height range on `side`
+    /// (see [`Launcher`] for many rays).
+    pub fn entry_point(&self, side: Side, rng: &mut Stream) -> Vec3 {
+        entry_point(self.texture.lattice_um(), self.entry_height(side), rng)
+    }
+
+    /// Prepares `incidence` for launching many rays: directions, Stokes vectors and the
+    /// entry plane are computed once here, not per ray.
+    pub fn launcher(&self, incidence: &Incidence) -> Launcher {
         let unpolarised = |dir: Vec3| Polarised {
             s: [1.0, 0.0, 0.0, 0.0],
             e1: orthonormal_basis(dir).0,
         };
-        match *incidence {
+        let start = match *incidence {
             Incidence::Above {
                 theta,
                 phi,
@@ -358,35 +361,24 @@ impl<'a> Surface<'a> {
                     InputPolarisation::P => [1.0, -1.0, 0.0, 0.0],
                     InputPolarisation::Linear(a) => [1.0, (2.0 * a).cos(), (2.0 * a).sin(), 0.0],
                 };
-                let origin = self.entry_point(Side::Above, rng);
-                Ray {
-                    origin,
-                    dir,
-                    pol: Polarised { s, e1: s_hat },
-                    skip: None,
-                }
+                Start::Fixed(dir, Polarised { s, e1: s_hat })
             }
             Incidence::BelowDirection { direction } => {
                 let dir = direction.normalize();
-                let origin = self.entry_point(Side::Below, rng);
-                Ray {
-                    origin,
-                    dir,
-                    pol: unpolarised(dir),
-                    skip: None,
-                }
+                Start::Fixed(dir, unpolarised(dir))
             }
-            Incidence::BelowIsotropic => {
-                let origin = self.entry_point(Side::Below, rng);
-                let dir = lambert(rng);
-                Ray {
-                    origin,
-                    dir,
-                    pol: unpolarised(dir),
-                    skip: None,
-                }
-            }
+            Incidence::BelowIsotropic => Start::Isotropic,
+        };
+        Launcher {
+            start,
+            lattice: self.texture.lattice_um(),
+            z: self.entry_height(incidence.side()),
         }
+    }
+
+    /// Starts a ray for `incidence` at a random position in the unit cell.
+    pub fn launch(&self, incidence: &Incidence, rng: &mut Stream) -> Ray {
+        self.launcher(incidence).ray(rng)
     }
 
     /// Traces one chunk of rays into a tally (and an exit observer).
@@ -402,8 +394,9 @@ impl<'a> Surface<'a> {
         let mut film = [0.0; super::response::MAX_FILM_LAYERS];
         let mut sample = FacetSample::default();
         let side_in = incidence.side();
+        let launcher = self.launcher(incidence);
         for _ in 0..rays {
-            let mut ray = self.launch(incidence, rng);
+            let mut ray = launcher.ray(rng);
             let start = ray.dir;
             film[..n_layers].iter_mut().for_each(|a| *a = 0.0);
             let (outcome, events) =
@@ -541,4 +534,55 @@ fn scaled(s: [f64; 4], w: f64) -> [f64; 4] {
 #[inline]
 fn lambert(rng: &mut Stream) -> Vec3 {
     rng.cosine_hemisphere()
+}
+
+/// How rays of a prepared incidence start.
+#[derive(Clone, Copy, Debug)]
+enum Start {
+    /// Along one direction with one polarisation state.
+    Fixed(Vec3, Polarised),
+    /// Cosine-weighted upward from below, unpolarised.
+    Isotropic,
+}
+
+/// An incidence prepared for launching rays ([`Surface::launcher`]).
+#[derive(Clone, Copy, Debug)]
+pub struct Launcher {
+    start: Start,
+    lattice: [[f64; 2]; 2],
+    z: f64,
+}
+
+impl Launcher {
+    /// A new ray at a uniformly random point of the unit cell on the entry plane.
+    #[inline]
+    pub fn ray(&self, rng: &mut Stream) -> Ray {
+        let origin = entry_point(self.lattice, self.z, rng);
+        let (dir, pol) = match self.start {
+            Start::Fixed(dir, pol) => (dir, pol),
+            Start::Isotropic => {
+                let dir = lambert(rng);
+                let pol = Polarised {
+                    s: [1.0, 0.0, 0.0, 0.0],
+                    e1: orthonormal_basis(dir).0,
+                };
+                (dir, pol)
+            }
+        };
+        Ray {
+            origin,
+            dir,
+            pol,
+            skip: None,
+        }
+    }
+}
+
+/// Uniform point u·a + v·b of the unit cell spanned by `lattice` (rotated lattices too) at
+/// height `z`.
+#[inline]
+fn entry_point(lattice: [[f64; 2]; 2], z: f64, rng: &mut Stream) -> Vec3 {
+    let [a, b] = lattice;
+    let (u, v) = (rng.uniform(), rng.uniform());
+    Vec3::new(u * a[0] + v * b[0], u * a[1] + v * b[1], z)
 }

@@ -162,9 +162,21 @@ impl Tally {
 /// Polar bin (10° wide) of a direction with |cos θ| = `abs_cos`.
 #[inline]
 pub fn polar_bin(abs_cos: f64) -> usize {
-    let theta_deg = abs_cos.clamp(0.0, 1.0).acos().to_degrees();
-    ((theta_deg / 10.0) as usize).min(POLAR_BINS - 1)
+    // θ ≥ 10°·k ⇔ |cos θ| ≤ cos(10°·k): count the bin edges the direction is past.
+    POLAR_EDGE_COS.iter().take_while(|&&c| abs_cos <= c).count()
 }
+
+/// cos(10°·k), k = 1..8: the inner edges of the polar histogram bins.
+const POLAR_EDGE_COS: [f64; POLAR_BINS - 1] = [
+    0.984_807_753_012_208,
+    0.939_692_620_785_908_4,
+    0.866_025_403_784_438_7,
+    0.766_044_443_118_978,
+    0.642_787_609_686_539_3,
+    0.5,
+    0.342_020_143_325_668_8,
+    0.173_648_177_666_930_4,
+];
 
 #[cfg(test)]
 mod tests {
@@ -180,6 +192,24 @@ mod tests {
         let se = m.std_error(1000);
         assert!((se - (0.3f64 * 0.7 / 999.0).sqrt()).abs() < 1e-15);
         assert!((m.mean(1000) - 0.3).abs() < 1e-15);
+    }
+
+    #[test]
+    fn polar_bin_edges_are_cosines_of_ten_degree_steps() {
+        for (k, c) in POLAR_EDGE_COS.iter().enumerate() {
+            let exact = (10.0 * (k + 1) as f64).to_radians().cos();
+            assert!((c - exact).abs() < 1e-15, "edge {k}");
+        }
+        // Same bins as ⌊θ/10°⌋ away from the edges.
+        for i in 0..900 {
+            let theta_deg = i as f64 * 0.1 + 0.05;
+            let want = ((theta_deg / 10.0) as usize).min(POLAR_BINS - 1);
+            assert_eq!(
+                polar_bin(theta_deg.to_radians().cos()),
+                want,
+                "{theta_deg}°"
+            );
+        }
     }
 
     #[test]

@@ -312,11 +312,12 @@ impl<'a> WaferModel<'a> {
         } else {
             0.0
         };
+        let launcher = self.interfaces[0].launcher(incidence);
         for _ in 0..rays {
             film.iter_mut()
                 .for_each(|f| f.iter_mut().for_each(|a| *a = 0.0));
             bulk.iter_mut().for_each(|a| *a = 0.0);
-            let mut ray = self.interfaces[0].launch(incidence, &mut rng);
+            let mut ray = launcher.ray(&mut rng);
             let mut interface = 0usize;
             let mut side = Side::Above;
             let mut events_total = 0u32;
