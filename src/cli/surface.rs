@@ -9,8 +9,8 @@ use lightfold::optics::materials::{self, Material};
 use lightfold::texture::{self, Texture};
 use lightfold::thinfilm::{FilmStack, Layer};
 use lightfold::tracer::{
-    BareInterface, COS_111_TILT, CoatedInterface, CoatingGeometry, FacetResponse, Incidence,
-    InputPolarisation, PolarisationMode, Surface, Tally,
+    BareInterface, CoatedInterface, CoatingGeometry, FacetResponse, Incidence, InputPolarisation,
+    PolarisationMode, Surface, Tally,
 };
 use serde::Serialize;
 use std::path::{Path, PathBuf};
@@ -166,6 +166,7 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
     let points = wavelengths.len() * angles.len();
     let bar = Bar::new(points as u64, "tracing", args.quiet || args.json);
     let mut rows = Vec::with_capacity(points);
+    let tilt_levels = texture::coating_tilt_levels(&texture.facet_tilts_deg());
     for (wi, &wl) in wavelengths.as_slice().iter().enumerate() {
         let n_above = index(&above, wl)?;
         let n_below = index(&below, wl)?;
@@ -182,7 +183,7 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
             })
         } else {
             Box::new(
-                CoatedInterface::new(&stack, wl, geometry, &[1.0, COS_111_TILT])
+                CoatedInterface::new(&stack, wl, geometry, &tilt_levels)
                     .map_err(|e| Failure::BadInput(e.to_string()))?,
             )
         };

@@ -5,10 +5,10 @@ use super::result::{RunResult, WavelengthResult};
 use super::{Progress, RunError};
 use crate::optics::Index;
 use crate::scenario::{RayBudget, Scenario};
+use crate::texture::coating_tilt_levels;
 use crate::thinfilm::{FilmStack, Layer};
 use crate::tracer::{
-    BareInterface, COS_111_TILT, CoatedInterface, FacetResponse, Incidence, Surface, ThickLayer,
-    WaferModel,
+    BareInterface, CoatedInterface, FacetResponse, Incidence, Surface, ThickLayer, WaferModel,
 };
 use rayon::prelude::*;
 
@@ -105,7 +105,7 @@ pub(super) fn response(
         stack,
         wavelength_nm,
         spec.coating_geometry,
-        &[1.0, COS_111_TILT],
+        &coating_tilt_levels(&spec.texture.facet_tilts_deg()),
     )
     .map_err(|e| RunError::Input(e.to_string()))?;
     Ok(Box::new(coated))

@@ -48,6 +48,9 @@ impl Texture for Flipped {
             facet: h.facet,
         })
     }
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        self.0.facet_tilts_deg()
+    }
     fn symmetry(&self) -> Symmetry {
         self.0.symmetry()
     }

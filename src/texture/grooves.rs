@@ -165,6 +165,10 @@ impl Texture for VGrooves {
         None
     }
 
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        vec![self.angle_deg]
+    }
+
     fn symmetry(&self) -> Symmetry {
         Symmetry::Mirror
     }

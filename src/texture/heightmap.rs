@@ -433,6 +433,18 @@ impl Texture for HeightMap {
         None
     }
 
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        let mut t = Vec::with_capacity(2 * self.nx * self.ny);
+        for j in 0..self.ny as i64 {
+            for i in 0..self.nx as i64 {
+                for p in self.quad(i, j).planes {
+                    t.push(p.a.hypot(p.b).atan().to_degrees());
+                }
+            }
+        }
+        t
+    }
+
     fn symmetry(&self) -> Symmetry {
         Symmetry::None
     }

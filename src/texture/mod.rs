@@ -116,10 +116,51 @@ pub trait Texture: Send + Sync + std::fmt::Debug {
     /// starts on. The hit point is wrapped into the unit cell and its facet id is valid there.
     /// A crossing counts only if t exceeds its rounding-error bound. No allocation.
     fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit>;
+    /// Tilts of the surface's facets from the base plane, degrees (0 for flat parts), each
+    /// listed once: coatings deposited by line of sight are thinner on tilted facets
+    /// (see [`coating_tilt_levels`]). Default: flat only.
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        vec![0.0]
+    }
     /// Symmetry for azimuthal bin reduction.
     fn symmetry(&self) -> Symmetry;
     /// One-line human description with units, for reports.
     fn describe(&self) -> String;
+}
+
+/// Finest step of the facet-tilt levels at which directional coatings are tabulated, degrees.
+pub const TILT_STEP_DEG: f64 = 0.25;
+/// Most tilt levels (pairs of angle tables) per coated interface and wavelength.
+pub const MAX_TILT_LEVELS: usize = 32;
+
+/// Cosines of the tilt levels at which a directional coating on a texture with facet tilts
+/// `tilts_deg` is tabulated: the tilts rounded to a step of [`TILT_STEP_DEG`], the step
+/// doubled until at most [`MAX_TILT_LEVELS`] levels remain. A facet uses the nearest level,
+/// so its film thickness d·cos θ is off by at most d·sin θ·(step/2) — 0.3 % of d at 54.7°
+/// with the finest step. Sorted, each level once; `[1.0]` for an empty list.
+pub fn coating_tilt_levels(tilts_deg: &[f64]) -> Vec<f64> {
+    let mut step = TILT_STEP_DEG;
+    loop {
+        let mut levels: Vec<i64> = tilts_deg
+            .iter()
+            .filter(|t| t.is_finite())
+            .map(|t| (t.clamp(0.0, 90.0) / step).round() as i64)
+            .collect();
+        levels.sort_unstable();
+        levels.dedup();
+        if levels.len() <= MAX_TILT_LEVELS {
+            if levels.is_empty() {
+                return vec![1.0];
+            }
+            let mut cos: Vec<f64> = levels
+                .iter()
+                .map(|&k| (k as f64 * step).to_radians().cos())
+                .collect();
+            cos.sort_by(f64::total_cmp);
+            return cos;
+        }
+        step *= 2.0;
+    }
 }
 
 /// Which side of the surface a ray is on.
@@ -417,5 +458,32 @@ pub(crate) fn facet_hit(t: f64, point: Vec3, p_err: Vec3, normal: Vec3, facet: u
         p_err,
         normal,
         facet: FacetId(facet),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn coating_tilt_levels_round_deduplicate_and_stay_few() {
+        assert_eq!(coating_tilt_levels(&[]), vec![1.0]);
+        let l = coating_tilt_levels(&[SI_111_ANGLE_DEG, 0.0, SI_111_ANGLE_DEG + 0.01]);
+        assert_eq!(l.len(), 2);
+        assert_eq!(l[1], 1.0);
+        // 54.7356° rounds to 54.75° (step 0.25°): cos within sin θ·0.125° of the exact one.
+        let exact = SI_111_ANGLE_DEG.to_radians().cos();
+        assert!(
+            (l[0] - exact).abs() <= SI_111_ANGLE_DEG.to_radians().sin() * 0.125f64.to_radians()
+        );
+        // A continuous spread is binned into at most MAX_TILT_LEVELS levels.
+        let spread: Vec<f64> = (0..10_000).map(|i| 40.0 + 30.0 * i as f64 / 1e4).collect();
+        let l = coating_tilt_levels(&spread);
+        assert!(
+            l.len() <= MAX_TILT_LEVELS && l.len() > MAX_TILT_LEVELS / 4,
+            "{}",
+            l.len()
+        );
+        assert!(l.windows(2).all(|w| w[0] < w[1]));
     }
 }

@@ -775,6 +775,14 @@ impl Texture for RegularPyramids {
         }
     }
 
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        let mut t = vec![self.spec.base_angle_deg];
+        if self.spec.period_um > self.spec.base_um {
+            t.push(0.0);
+        }
+        t
+    }
+
     fn symmetry(&self) -> Symmetry {
         // C4v mirror lines of the lattice map onto the axes when the rotation is a multiple
         // of 45°.

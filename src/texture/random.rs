@@ -968,6 +968,14 @@ impl Texture for RandomPyramids {
         None
     }
 
+    fn facet_tilts_deg(&self) -> Vec<f64> {
+        let mut t = self.facet_tilts();
+        if self.coverage < 1.0 {
+            t.push(0.0);
+        }
+        t
+    }
+
     fn symmetry(&self) -> Symmetry {
         // Statistically fourfold with mirror lines along the pyramid edges (x, y).
         Symmetry::Square
