@@ -104,18 +104,22 @@ fn tracer(c: &mut Criterion) {
     }
     g.finish();
 
+    // Many chunks, so that two threads share the work evenly (chunks are fixed at
+    // RAYS_PER_CHUNK rays for determinism; a handful of chunks would measure the imbalance).
+    let scaling_rays = 40 * lightfold::tracer::RAYS_PER_CHUNK;
     let mut g = c.benchmark_group("rays");
-    g.throughput(Throughput::Elements(RAYS));
+    g.sample_size(10);
+    g.throughput(Throughput::Elements(scaling_rays));
     let s = surface(&random, &coated, PolarisationMode::Stokes);
     g.bench_function("random_pyramids_front_1_thread", |b| {
-        b.iter(|| pool1.install(|| black_box(s.trace::<()>(&inc, RAYS, 7, 0))))
+        b.iter(|| pool1.install(|| black_box(s.trace::<()>(&inc, scaling_rays, 7, 0))))
     });
     let pool2 = rayon::ThreadPoolBuilder::new()
         .num_threads(2)
         .build()
         .unwrap();
     g.bench_function("random_pyramids_front_2_threads", |b| {
-        b.iter(|| pool2.install(|| black_box(s.trace::<()>(&inc, RAYS, 7, 0))))
+        b.iter(|| pool2.install(|| black_box(s.trace::<()>(&inc, scaling_rays, 7, 0))))
     });
     g.finish();
 }
