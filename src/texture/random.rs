@@ -760,6 +760,22 @@ impl FaceSlopes {
     }
 }
 
+/// Tile index and cell within the tile of grid cell `g` (n cells per tile): the Euclidean
+/// quotient and remainder, without an integer division for the tile and its neighbours
+/// (where nearly every ray is).
+#[inline(always)]
+fn tile_and_cell(g: i64, n: i64) -> (i64, i64) {
+    if (0..n).contains(&g) {
+        (0, g)
+    } else if (n..2 * n).contains(&g) {
+        (1, g - n)
+    } else if (-n..0).contains(&g) {
+        (-1, g + n)
+    } else {
+        (g.div_euclid(n), g.rem_euclid(n))
+    }
+}
+
 /// Which face of which image is the leaving facet, in tile (0, 0).
 #[inline]
 fn pinned(skip: Option<u32>, image: u32, tile_zero: bool) -> Option<u32> {
@@ -786,16 +802,10 @@ impl Texture for RandomPyramids {
         let n = self.grid_n;
         // Grid cell → cell in the tile, tile offset, origin in that tile's frame.
         let locate = |gi: i64, gj: i64| {
-            let (ti, tj) = (gi.div_euclid(n), gj.div_euclid(n));
+            let ((ti, li), (tj, lj)) = (tile_and_cell(gi, n), tile_and_cell(gj, n));
             let (tx, ty) = (ti as f64 * self.tile, tj as f64 * self.tile);
             let ol = Vec3::new(o.x - tx, o.y - ty, o.z);
-            (
-                gi.rem_euclid(n),
-                gj.rem_euclid(n),
-                [tx, ty],
-                ol,
-                ti == 0 && tj == 0,
-            )
+            (li, lj, [tx, ty], ol, ti == 0 && tj == 0)
         };
         let mut ground = Gap::new(&HeightPlane::GROUND, o, d, self.tol);
         if skip == Some(GROUND_FACET) {
@@ -1016,6 +1026,19 @@ impl Texture for RandomPyramids {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn tile_and_cell_is_the_euclidean_division() {
+        for n in [1i64, 3, 7] {
+            for g in -40..40 {
+                assert_eq!(
+                    tile_and_cell(g, n),
+                    (g.div_euclid(n), g.rem_euclid(n)),
+                    "{g} / {n}"
+                );
+            }
+        }
+    }
 
     #[test]
     fn union_area_of_overlapping_squares() {
