@@ -97,6 +97,8 @@ pub struct RegularPyramids {
     tan: f64,
     /// Margin of the closed-form fast path ([`RegularPyramids::fast_crossing`]), µm.
     margin: f64,
+    /// Largest coordinate below the period (the last point of the unit cell), µm.
+    period_below: f64,
 }
 
 /// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
@@ -222,6 +224,7 @@ impl RegularPyramids {
             depth: super::depth_tol((1.0 + tan_a) * spec.period_um + 2.0 * height),
             tan: tan_a,
             margin: FAST_MARGIN_REL * (spec.period_um + height),
+            period_below: spec.period_um.next_down(),
         })
     }
 
@@ -358,6 +361,37 @@ impl RegularPyramids {
         let (y, _) = clamp_into(p.y - cy, self.period);
         let (z, active) = self.surface(x, y);
         let err = snapped_err(x, y, self.planes[active].z_err(x, y));
+        let (point, p_err) = if self.rotated {
+            let (c, s) = (self.cos_r, self.sin_r);
+            let point = Vec3::new(c * x - s * y, s * x + c * y, z);
+            let rot_err = gamma(3) * (x.abs() + y.abs());
+            (point, Vec3::new(rot_err, rot_err, err.z))
+        } else {
+            (Vec3::new(x, y, z), err)
+        };
+        facet_hit(t, point, p_err, self.normals[facet as usize], facet)
+    }
+
+    /// [`Self::hit_at`] for a crossing decided by the fast path: the point is snapped onto
+    /// the crossed facet's plane (the surface there: the crossing is clear of every other
+    /// plane's root).
+    #[inline(always)]
+    fn fast_hit_at(&self, o: Vec3, d: Vec3, t: f64, i: i64, j: i64, facet: u32) -> Hit {
+        let p = o + t * d;
+        let inside = |v: f64| {
+            if v < 0.0 {
+                0.0
+            } else if v >= self.period {
+                self.period_below
+            } else {
+                v
+            }
+        };
+        let x = inside(p.x - i as f64 * self.period);
+        let y = inside(p.y - j as f64 * self.period);
+        let plane = &self.planes[facet as usize];
+        let z = plane.z_at(x, y);
+        let err = snapped_err(x, y, plane.z_err(x, y));
         let (point, p_err) = if self.rotated {
             let (c, s) = (self.cos_r, self.sin_r);
             let point = Vec3::new(c * x - s * y, s * x + c * y, z);
@@ -769,7 +803,7 @@ impl Texture for RegularPyramids {
         let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
         match self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi) {
-            Some(Some((t, i, j, facet))) => Some(self.hit_at(o, d, t, i, j, facet)),
+            Some(Some((t, i, j, facet))) => Some(self.fast_hit_at(o, d, t, i, j, facet)),
             Some(None) => None,
             None => self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi),
         }
@@ -892,7 +926,7 @@ mod tests {
                     total += 1;
                     if let Some(fast) = tex.fast_crossing(o, d, sk, t_start, t_end, z_lo, z_hi) {
                         decided += 1;
-                        let fast = fast.map(|(t, i, j, k)| tex.hit_at(o, d, t, i, j, k));
+                        let fast = fast.map(|(t, i, j, k)| tex.fast_hit_at(o, d, t, i, j, k));
                         match (fast, robust) {
                             (None, None) => {}
                             (Some(f), Some(r)) => {
