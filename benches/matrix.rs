@@ -1,4 +1,5 @@
-//! Matrix build (analytic planar interface) and stack solve per wavelength, in bins/s.
+//! Matrix build (analytic planar interface) and stack solve per wavelength, in bins/s, and the
+//! solve with the solver's binning error estimate (three extra solves on half the bins).
 //! Run: `cargo bench --bench matrix`. Seeded inputs only, no I/O in the loops.
 
 use criterion::{BenchmarkId, Criterion, Throughput, black_box, criterion_group, criterion_main};
@@ -6,7 +7,9 @@ use lightfold::redistribution::{
     AngleBins, InterfaceMatrices, InterfaceResponse, InterfaceSetup, MediumInfo, Side,
 };
 use lightfold::texture::Symmetry;
-use lightfold::wafer::{SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer};
+use lightfold::wafer::{
+    BinningCheck, SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer,
+};
 use num_complex::Complex64;
 
 /// Unpolarised Fresnel reflectance between real indices (Born & Wolf, 7th ed., §1.5.2).
@@ -121,6 +124,29 @@ fn matrix(c: &mut Criterion) {
             BenchmarkId::from_parameter(format!("{np}x{na}")),
             &s,
             |bch, s| bch.iter(|| s.solve(black_box(&inc), &SolverOptions::default()).unwrap()),
+        );
+    }
+    g.finish();
+
+    let mut g = c.benchmark_group("stack_solve_with_binning_error");
+    g.sample_size(10);
+    for (np, na) in [(30, 1), (50, 8)] {
+        let b = bins(np, na);
+        let s = stack(&b);
+        let inc: Vec<f64> = (0..b.len())
+            .map(|i| if i < na { 1.0 } else { 0.0 })
+            .collect();
+        let check = BinningCheck { keep_polar: 0 };
+        g.throughput(Throughput::Elements(b.len() as u64));
+        g.bench_with_input(
+            BenchmarkId::from_parameter(format!("{np}x{na}")),
+            &s,
+            |bch, s| {
+                bch.iter(|| {
+                    s.solve_with_binning_error(black_box(&inc), &check, &SolverOptions::default())
+                        .unwrap()
+                })
+            },
         );
     }
     g.finish();

@@ -81,14 +81,30 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
             result.rays_total,
             result.wall_time_s
         );
+        // Matrix mode: the solver's binning error estimate beside the Monte Carlo σ.
+        let binning = |b: Option<f64>| b.map_or(String::new(), |b| format!(", binning ±{b:.3}"));
         println!(
-            "  photocurrent in {:<28} {:>8.3} ± {:.3} mA/cm²",
-            a.name, a.j_ma_cm2, a.std_error_ma_cm2
+            "  photocurrent in {:<28} {:>8.3} ± {:.3}{} mA/cm²",
+            a.name,
+            a.j_ma_cm2,
+            a.std_error_ma_cm2,
+            binning(a.binning_error_ma_cm2)
         );
         for l in &result.losses {
             println!(
-                "  {:<43} {:>8.3} ± {:.3} mA/cm²",
-                l.name, l.j_ma_cm2, l.std_error_ma_cm2
+                "  {:<43} {:>8.3} ± {:.3}{} mA/cm²",
+                l.name,
+                l.j_ma_cm2,
+                l.std_error_ma_cm2,
+                binning(l.binning_error_ma_cm2)
+            );
+        }
+        if let Some(b) = &result.binning {
+            println!(
+                "  matrix mode: {} × {} bins; binning error from {} coarser solve(s) (docs/results.md)",
+                b.bins[0],
+                b.bins[1],
+                b.coarse_bins.len()
             );
         }
         println!(

@@ -1,7 +1,9 @@
 //! `lightfold sweep SCENARIO --vary KEY=START:STOP:STEPS …`: a grid over numeric scenario keys.
 //! Each finished point is written at once (atomically) to `points/`, so a rerun skips it and a
 //! run killed at any moment loses no finished point; `--shard K/N` runs the points p with
-//! p mod N = K − 1, and `lightfold merge` gathers shard folders into one table.
+//! p mod N = K − 1, and `lightfold merge` gathers shard folders into one table. In matrix mode
+//! the points share one `simulate::MatrixCache` (up to 1 GiB): interfaces that do not change
+//! between points are traced once.
 
 use super::Failure;
 use crate::cli::progress::Bar;
@@ -148,6 +150,9 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
     std::fs::create_dir_all(args.output.join("points"))
         .map_err(|e| Failure::BadInput(format!("{}: cannot create: {e}", args.output.display())))?;
     let bar = Bar::new(texts.len() as u64, "sweep points", args.quiet || args.json);
+    // Matrix mode: interface matrices do not depend on thick-layer thicknesses, so points that
+    // share interfaces (a thickness sweep) trace them once.
+    let cache = lightfold::simulate::MatrixCache::default();
     for (p, t) in &texts {
         let file = point_file(&args.output, *p);
         if file.is_file() {
@@ -156,7 +161,7 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         }
         let s =
             Scenario::from_str(t, &args.scenario).map_err(|e| Failure::BadInput(e.to_string()))?;
-        let r = lightfold::simulate::run(&s, &|_, _| {})
+        let r = lightfold::simulate::run_with_cache(&s, &|_, _| {}, Some(&cache))
             .map_err(|e| Failure::Internal(e.to_string()))?;
         let values = point_values(&axes, *p);
         let doc = json!({

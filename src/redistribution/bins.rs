@@ -373,6 +373,84 @@ impl AngleBins {
     pub fn symmetry_name(&self) -> &'static str {
         symmetry_name(self.symmetry)
     }
+
+    /// Coarser bins made by merging neighbours, for estimating the binning error.
+    ///
+    /// * `keep_polar` – leading polar bins (from the normal) kept as they are, e.g. 1 for a
+    ///   narrow bin that stands for collimated normal incidence;
+    /// * `merge_polar` – merge the following polar bins in pairs, from the normal towards
+    ///   grazing (an odd last bin stays alone);
+    /// * `merge_azimuth` – merge azimuth bins in pairs (needs an even count).
+    ///
+    /// Every bin of `self` lies inside one bin of the result ([`Self::coarse_map`]). Fails when
+    /// nothing can be merged the way asked.
+    pub fn merged_pairs(
+        &self,
+        keep_polar: usize,
+        merge_polar: bool,
+        merge_azimuth: bool,
+    ) -> Result<AngleBins, BinError> {
+        let np = self.n_polar();
+        let mut edges = self.sin2_edges.clone();
+        if merge_polar {
+            if np < keep_polar + 2 {
+                return Err(invalid(
+                    format!("{np} polar bins with {keep_polar} kept: nothing to merge in pairs"),
+                    "at least two polar bins beyond the kept ones",
+                    "use more polar bins",
+                ));
+            }
+            // Keep edges 0..=keep_polar, then every second edge, and always the last (s = 1).
+            edges = (0..=np)
+                .filter(|&e| e <= keep_polar || (e - keep_polar).is_multiple_of(2) || e == np)
+                .map(|e| self.sin2_edges[e])
+                .collect();
+        }
+        let mut na = self.n_azimuth;
+        if merge_azimuth {
+            if na < 2 || !na.is_multiple_of(2) {
+                return Err(invalid(
+                    format!("{na} azimuth bin(s) cannot be merged in pairs"),
+                    "an even number of azimuth bins",
+                    "use an even number of azimuth bins or merge polar bins only",
+                ));
+            }
+            na /= 2;
+        }
+        AngleBins::from_sin2_edges(&edges, na, self.symmetry)
+    }
+
+    /// For every bin of `self`, the bin of `coarse` that contains it; `None` when the two do
+    /// not nest (a polar bin of `self` straddles an edge of `coarse`, the symmetries differ,
+    /// or `coarse`'s azimuth count does not divide `self`'s).
+    pub fn coarse_map(&self, coarse: &AngleBins) -> Option<Vec<usize>> {
+        if coarse.symmetry != self.symmetry
+            || coarse.n_azimuth == 0
+            || !self.n_azimuth.is_multiple_of(coarse.n_azimuth)
+        {
+            return None;
+        }
+        let tol = 1e-14;
+        let mut polar = Vec::with_capacity(self.n_polar());
+        for p in 0..self.n_polar() {
+            let (s0, s1) = self.sin2_range(p);
+            let q = coarse.polar_index_sin2(0.5 * (s0 + s1));
+            let (c0, c1) = coarse.sin2_range(q);
+            if s0 < c0 - tol || s1 > c1 + tol {
+                return None;
+            }
+            polar.push(q);
+        }
+        let f = self.n_azimuth / coarse.n_azimuth;
+        Some(
+            (0..self.len())
+                .map(|i| {
+                    let (p, a) = self.split(i);
+                    polar[p] * coarse.n_azimuth + a / f
+                })
+                .collect(),
+        )
+    }
 }
 
 /// Lower-case name of a symmetry, as written in sidecar files.
@@ -478,6 +556,39 @@ mod tests {
         assert_eq!(b.reversed(6), Some(4));
         let odd = AngleBins::equal_etendue(2, 3, Symmetry::None).unwrap();
         assert_eq!(odd.reversed(0), None);
+    }
+
+    #[test]
+    fn merged_pairs_nest_in_the_fine_bins() {
+        // Narrow normal bin kept, 5 equal-étendue bins merged in pairs (the last stays alone).
+        let mut edges = vec![0.0, 1e-4];
+        edges.extend((1..=5).map(|i| i as f64 / 5.0));
+        let fine = AngleBins::from_sin2_edges(&edges, 4, Symmetry::None).unwrap();
+        let c = fine.merged_pairs(1, true, false).unwrap();
+        assert_eq!(c.sin2_edges(), &[0.0, 1e-4, 0.4, 0.8, 1.0]);
+        assert_eq!(c.n_azimuth(), 4);
+        let map = fine.coarse_map(&c).unwrap();
+        assert_eq!(map[0], 0);
+        // Fine polar bin 2 ([0.2, 0.4]) lies in coarse polar bin 1; azimuth kept.
+        assert_eq!(map[2 * 4 + 3], 4 + 3);
+        assert_eq!(map[5 * 4], 3 * 4);
+        // Étendue is conserved by the merge: coarse = Σ fine over its members.
+        let mut e = vec![0.0; c.len()];
+        for (i, &g) in map.iter().enumerate() {
+            e[g] += fine.etendue(i);
+        }
+        for (g, x) in e.iter().enumerate() {
+            assert!((x - c.etendue(g)).abs() < 1e-14, "bin {g}");
+        }
+        let a = fine.merged_pairs(1, false, true).unwrap();
+        assert_eq!((a.n_polar(), a.n_azimuth()), (6, 2));
+        assert_eq!(fine.coarse_map(&a).unwrap()[3], 1);
+        // What cannot be merged is refused; bins that do not nest have no map.
+        let odd = AngleBins::equal_etendue(4, 3, Symmetry::None).unwrap();
+        assert!(odd.merged_pairs(0, false, true).is_err());
+        assert!(odd.merged_pairs(3, true, false).is_err());
+        let other = AngleBins::equal_etendue(3, 4, Symmetry::None).unwrap();
+        assert!(fine.coarse_map(&other).is_none());
     }
 
     #[test]

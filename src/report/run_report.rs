@@ -39,6 +39,7 @@ pub fn summary_json(r: &RunResult) -> serde_json::Value {
             "double_pass": r.limits.double_pass_ma_cm2,
             "max_to_band_gap": r.limits.max_to_gap_ma_cm2,
         },
+        "binning_error": r.binning,
         "energy_audit_max_error": r.energy_error_max,
         "rays_traced": r.rays_total,
         "rays_lost": r.lost_rays_total,
@@ -69,10 +70,36 @@ fn spectra_csv(r: &RunResult) -> Result<String, ReportError> {
             cols.push(Column::new(format!("A {n} se"), ""));
         }
     }
+    // Matrix mode: the solver's binning error estimate of every figure, after the others.
+    let binning = r.binning.is_some();
+    if binning {
+        for n in [
+            "reflectance_binning",
+            "escape_binning",
+            "transmittance_binning",
+        ] {
+            cols.push(Column::new(n, ""));
+        }
+        for n in &r.layer_names {
+            cols.push(Column::new(format!("A {n} binning"), ""));
+        }
+        for names in &r.film_names {
+            for n in names {
+                cols.push(Column::new(format!("A {n} binning"), ""));
+            }
+        }
+    }
     let mut w = CsvWriter::new(&cols);
     w.comment(&format!(
-        "lightfold {} scenario {} seed {}: fractions of incident power, se = standard error",
-        r.version, r.scenario, r.seed
+        "lightfold {} scenario {} seed {}: fractions of incident power, se = standard error{}",
+        r.version,
+        r.scenario,
+        r.seed,
+        if binning {
+            ", binning = the matrix solver's binning error estimate (docs/results.md)"
+        } else {
+            ""
+        }
     ));
     w.comment(&format!("transmittance = {}", r.exit_name));
     for wl in &r.wavelengths {
@@ -90,6 +117,18 @@ fn spectra_csv(r: &RunResult) -> Result<String, ReportError> {
         }
         for f in wl.films.iter().flatten() {
             row.extend([f.value, f.std_error]);
+        }
+        if binning {
+            let b = wl.binning_error.as_ref();
+            let n_cols = 3 + r.layer_names.len() + r.film_names.iter().flatten().count();
+            match b {
+                Some(b) => {
+                    row.extend([b.reflectance, b.escape, b.transmittance]);
+                    row.extend(&b.thick_absorptance);
+                    row.extend(b.film_absorptance.iter().flatten());
+                }
+                None => row.extend(std::iter::repeat_n(f64::NAN, n_cols)),
+            }
         }
         w.row_f64(&row)?;
     }
@@ -306,13 +345,32 @@ pub fn write_run(
     let a = r.absorber_current();
     let mut page = Page::new(format!("lightfold: {}", r.scenario));
     page.paragraph(super::html::ESTIMATE_NOTE);
+    let mut headline = vec![(
+        format!("photocurrent in {}", a.name),
+        match a.binning_error_ma_cm2 {
+            Some(b) => format!(
+                "{:.3} ± {:.3} mA/cm² (Monte Carlo σ); binning error estimate ±{b:.3} mA/cm²",
+                a.j_ma_cm2, a.std_error_ma_cm2
+            ),
+            None => format!("{:.3} ± {:.3} mA/cm²", a.j_ma_cm2, a.std_error_ma_cm2),
+        },
+    )];
+    if let Some(b) = &r.binning {
+        headline.push((
+            "angle bins (matrix mode)".to_string(),
+            format!(
+                "{} polar × {} azimuth; binning error estimated from {} coarser solve(s); largest for the absorptance {:.2e} at {} nm",
+                b.bins[0],
+                b.bins[1],
+                b.coarse_bins.len(),
+                b.max_absorber_absorptance,
+                b.max_at_wavelength_nm
+            ),
+        ));
+    }
     page.key_values(
         "Headline figures",
-        [
-            (
-                format!("photocurrent in {}", a.name),
-                format!("{:.3} ± {:.3} mA/cm²", a.j_ma_cm2, a.std_error_ma_cm2),
-            ),
+        headline.into_iter().chain([
             (
                 "weighted reflectance".to_string(),
                 format!(
@@ -341,25 +399,43 @@ pub fn write_run(
                 format!("{:.1e}", r.energy_error_max),
             ),
             ("wall time".to_string(), format!("{:.2} s", r.wall_time_s)),
-        ],
+        ]),
     );
-    let mut rows = vec![vec![
+    let binning = r.binning.is_some();
+    let row = |name: String, j: f64, se: f64, b: Option<f64>| {
+        let mut v = vec![name, format!("{j:.3}"), format!("{se:.3}")];
+        if binning {
+            v.push(b.map_or("—".into(), |b| format!("{b:.3}")));
+        }
+        v
+    };
+    let mut rows = vec![row(
         format!("absorbed in {}", a.name),
-        format!("{:.3}", a.j_ma_cm2),
-        format!("{:.3}", a.std_error_ma_cm2),
-    ]];
+        a.j_ma_cm2,
+        a.std_error_ma_cm2,
+        a.binning_error_ma_cm2,
+    )];
     for l in &r.losses {
-        rows.push(vec![
+        rows.push(row(
             l.name.clone(),
-            format!("{:.3}", l.j_ma_cm2),
-            format!("{:.3}", l.std_error_ma_cm2),
-        ]);
+            l.j_ma_cm2,
+            l.std_error_ma_cm2,
+            l.binning_error_ma_cm2,
+        ));
     }
-    page.table(
-        "Photon budget (mA/cm²)",
-        vec!["item".into(), "J".into(), "σ".into()],
-        rows,
-    );
+    let mut header = vec!["item".into(), "J".into(), "σ".into()];
+    if binning {
+        header.push("binning error".into());
+    }
+    page.table("Photon budget (mA/cm²)", header, rows);
+    if let Some(b) = &r.binning {
+        page.paragraph(format!(
+            "Matrix mode: σ is the Monte Carlo standard error (the traced matrices' own noise is \
+             not propagated); the binning error is the solver's estimate of its angular \
+             discretisation error: {}.",
+            b.method
+        ));
+    }
     if plots_on {
         for (stem, caption, plot) in plots(r) {
             dir.write_plot(stem, plot.as_ref(), W, H)?;

@@ -1,5 +1,12 @@
 //! Matrix mode: per wavelength, redistribution matrices for every interface (analytic for
-//! planar interfaces, traced for textures) combined by the stack solver (`wafer::Stack`).
+//! planar interfaces, traced for textures) combined by the stack solver (`wafer::Stack`), with
+//! the solver's own binning error estimate (`wafer::binning`).
+//!
+//! Interface matrices do not depend on the thickness of any thick layer, so a
+//! [`MatrixCache`] shared between runs (the points of a sweep) traces them once.
+//! Thick layers are given to the solver with their volume-equivalent thickness
+//! `d + ⟨h_above⟩ − ⟨h_below⟩` (mean surface heights of the interfaces above and below, see
+//! `redistribution::traced`), because traced matrices do not absorb inside the texture slab.
 
 use super::direct::{assumptions as direct_assumptions, optics_at, response};
 use super::result::{RunResult, WavelengthResult};
@@ -7,10 +14,139 @@ use super::{Progress, RunError};
 use crate::redistribution::traced::textured_matrices;
 use crate::redistribution::{AngleBins, InterfaceMatrices, InterfaceSetup, MediumInfo};
 use crate::scenario::{RayBudget, Scenario};
-use crate::texture::{SurfaceKind, Symmetry};
+use crate::texture::{SurfaceKind, Symmetry, Texture};
 use crate::tracer::{Estimate, Surface};
-use crate::wafer::{SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer};
+use crate::wafer::{BinningCheck, SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer};
 use rayon::prelude::*;
+use std::collections::HashMap;
+use std::hash::{Hash, Hasher};
+use std::sync::{Arc, Mutex};
+
+/// Default memory a [`MatrixCache`] may fill, bytes (1 GiB).
+pub const DEFAULT_CACHE_BYTES: usize = 1 << 30;
+
+/// Interface matrices kept between runs of one process, e.g. the points of a sweep.
+///
+/// An interface's matrices depend on its texture, coating, the media on either side (real
+/// indices; the full index of the exit medium), the wavelength and its index in the grid (it
+/// seeds the rays), the bins, the rays per bin, the seed and the polarisation treatment — all
+/// part of the key — and not on the thickness of any thick layer, so a sweep over
+/// thicknesses traces every interface once. Entries are stored while the cache holds less than
+/// its budget; past it, matrices are rebuilt (never evicted, never wrong). Thread-safe.
+#[derive(Debug)]
+pub struct MatrixCache {
+    budget_bytes: usize,
+    inner: Mutex<CacheInner>,
+}
+
+#[derive(Debug, Default)]
+struct CacheInner {
+    map: HashMap<String, Arc<InterfaceMatrices>>,
+    bytes: usize,
+    hits: u64,
+    misses: u64,
+}
+
+impl Default for MatrixCache {
+    fn default() -> Self {
+        Self::new(DEFAULT_CACHE_BYTES)
+    }
+}
+
+impl MatrixCache {
+    /// An empty cache that stores matrices up to `budget_bytes` in total.
+    pub fn new(budget_bytes: usize) -> Self {
+        MatrixCache {
+            budget_bytes,
+            inner: Mutex::new(CacheInner::default()),
+        }
+    }
+    fn lock(&self) -> std::sync::MutexGuard<'_, CacheInner> {
+        // A panic elsewhere while holding the lock leaves a consistent map: keep using it.
+        self.inner.lock().unwrap_or_else(|e| e.into_inner())
+    }
+    /// Lookups answered from the cache so far.
+    pub fn hits(&self) -> u64 {
+        self.lock().hits
+    }
+    /// Lookups that had to build the matrices.
+    pub fn misses(&self) -> u64 {
+        self.lock().misses
+    }
+    /// Bytes of matrices held.
+    pub fn bytes(&self) -> usize {
+        self.lock().bytes
+    }
+    fn get(&self, key: &str) -> Option<Arc<InterfaceMatrices>> {
+        let mut c = self.lock();
+        let found = c.map.get(key).cloned();
+        if found.is_some() {
+            c.hits += 1;
+        } else {
+            c.misses += 1;
+        }
+        found
+    }
+    fn put(&self, key: String, m: &InterfaceMatrices) {
+        let size = matrices_bytes(m);
+        let mut c = self.lock();
+        if c.bytes + size <= self.budget_bytes && !c.map.contains_key(&key) {
+            c.bytes += size;
+            c.map.insert(key, Arc::new(m.clone()));
+        }
+    }
+}
+
+/// Bytes of the numbers in a matrix set (both sides, with standard errors if present).
+fn matrices_bytes(m: &InterfaceMatrices) -> usize {
+    let side = |s: &crate::redistribution::SideMatrices| {
+        s.reflection.as_slice().len()
+            + s.transmission.as_slice().len()
+            + s.absorption.as_slice().len()
+    };
+    let per = side(&m.from_above) + side(&m.from_below);
+    8 * per * if m.std_error.is_some() { 2 } else { 1 }
+}
+
+/// A hash of everything in an interface's description that shapes its matrices apart from
+/// the per-wavelength optics (which enter the key as numbers): the texture's full state, its
+/// label and orientation, the coating geometry and films.
+fn interface_fingerprint(spec: &crate::scenario::InterfaceSpec) -> u64 {
+    let mut h = std::collections::hash_map::DefaultHasher::new();
+    format!("{:?}", spec.texture).hash(&mut h);
+    spec.texture.describe().hash(&mut h);
+    spec.texture_label.hash(&mut h);
+    format!("{:?}|{:?}", spec.features, spec.coating_geometry).hash(&mut h);
+    for c in &spec.coating {
+        c.material.id().hash(&mut h);
+        c.thickness_nm.to_bits().hash(&mut h);
+    }
+    h.finish()
+}
+
+/// Mean height of a surface over its unit cell, µm (z of the first hit of vertical rays from
+/// above on a 64 × 64 grid of cell positions; 0 for planar and ideal surfaces).
+pub fn mean_height_um(texture: &dyn Texture) -> f64 {
+    let [z_lo, z_hi] = texture.z_range_um();
+    if texture.kind() != SurfaceKind::Geometric || (z_lo == 0.0 && z_hi == 0.0) {
+        return 0.0;
+    }
+    let [a, b] = texture.lattice_um();
+    let n = 64;
+    let down = crate::geometry::Vec3::new(0.0, 0.0, -1.0);
+    let mut sum = 0.0;
+    for i in 0..n {
+        for j in 0..n {
+            let (u, v) = ((i as f64 + 0.5) / n as f64, (j as f64 + 0.5) / n as f64);
+            let origin =
+                crate::geometry::Vec3::new(u * a[0] + v * b[0], u * a[1] + v * b[1], z_hi + 1.0);
+            sum += texture
+                .intersect(origin, down, None)
+                .map_or(z_lo, |h| h.point.z);
+        }
+    }
+    sum / (n * n) as f64
+}
 
 fn input(e: impl std::fmt::Display) -> RunError {
     RunError::Input(e.to_string())
@@ -27,25 +163,66 @@ fn exact(value: f64) -> Estimate {
 pub type MatrixSink<'a> =
     &'a (dyn Fn(&str, f64, &InterfaceMatrices) -> Result<(), RunError> + Sync);
 
-fn one_wavelength(
-    scenario: &Scenario,
-    index: usize,
-    wl: f64,
-    sink: Option<MatrixSink>,
-) -> Result<WavelengthResult, RunError> {
-    let optics = optics_at(scenario, wl)?;
+/// Per-run data shared by the wavelengths.
+struct Context<'a> {
+    scenario: &'a Scenario,
+    sink: Option<MatrixSink<'a>>,
+    cache: Option<&'a MatrixCache>,
+    fingerprints: Vec<u64>,
+    /// Volume-equivalent thickness of each thick layer, µm.
+    thickness_um: Vec<f64>,
+}
+
+impl<'a> Context<'a> {
+    fn new(
+        scenario: &'a Scenario,
+        sink: Option<MatrixSink<'a>>,
+        cache: Option<&'a MatrixCache>,
+    ) -> Self {
+        let interfaces: Vec<_> = scenario.interfaces().collect();
+        let heights: Vec<f64> = interfaces
+            .iter()
+            .map(|i| mean_height_um(&*i.texture))
+            .collect();
+        let thickness_um = scenario
+            .layers()
+            .enumerate()
+            .map(|(l, layer)| layer.thickness_um + heights[l] - heights[l + 1])
+            .collect();
+        Context {
+            scenario,
+            sink,
+            cache,
+            fingerprints: interfaces
+                .iter()
+                .map(|i| interface_fingerprint(i))
+                .collect(),
+            thickness_um,
+        }
+    }
+}
+
+/// The angle bins of a matrix-mode run: a narrow first bin (sin²θ < 1e-4, θ < 0.6°) so that
+/// collimated light at normal incidence is not smeared over the first cone, then
+/// `polar_bins` (at least 2) bins of equal étendue; `azimuth_bins` over the full circle.
+pub fn run_bins(scenario: &Scenario) -> Result<AngleBins, RunError> {
     let solver = &scenario.solver;
     let symmetry = if solver.azimuth_bins == 1 {
         Symmetry::Isotropic
     } else {
         Symmetry::None
     };
-    // Equal-étendue polar bins plus a narrow first bin (sin²θ < 1e-4, θ < 0.6°) so that
-    // collimated light at normal incidence is not smeared over the first cone.
     let n = solver.polar_bins.max(2);
     let mut edges = vec![0.0, 1e-4];
     edges.extend((1..=n).map(|i| i as f64 / n as f64));
-    let bins = AngleBins::from_sin2_edges(&edges, solver.azimuth_bins, symmetry).map_err(input)?;
+    AngleBins::from_sin2_edges(&edges, solver.azimuth_bins, symmetry).map_err(input)
+}
+
+fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResult, RunError> {
+    let scenario = ctx.scenario;
+    let optics = optics_at(scenario, wl)?;
+    let solver = &scenario.solver;
+    let bins = run_bins(scenario)?;
     let rays_per_bin = match solver.rays {
         RayBudget::Fixed(n) => n.max(2048),
         RayBudget::Precision { .. } => 4096,
@@ -96,21 +273,36 @@ fn one_wavelength(
         let planar = spec.texture.kind() == SurfaceKind::IdealSpecular
             || (spec.texture.kind() == SurfaceKind::Geometric
                 && spec.texture.z_range_um() == [0.0, 0.0]);
-        let m = if planar {
-            InterfaceMatrices::planar_film(setup, stack).map_err(input)?
-        } else {
-            let resp = response(scenario, i, stack, wl)?;
-            let surface = Surface {
-                texture: &*spec.texture,
-                response: &*resp,
-                n_above: optics.n_media[i],
-                n_below: optics.n_media[i + 1],
-                polarisation: solver.polarisation,
-            };
-            let key = crate::sampling::job_key(index as u32, i as u32 + 1);
-            textured_matrices(&surface, setup, rays_per_bin, solver.seed, key).map_err(input)?
+        let key = format!(
+            "{:016x}|{i}|{index}|{setup:?}|{stack:?}|{rays_per_bin}|{}|{:?}|{planar}",
+            ctx.fingerprints[i], solver.seed, solver.polarisation
+        );
+        let cached = ctx.cache.and_then(|c| c.get(&key));
+        let m = match cached {
+            Some(m) => (*m).clone(),
+            None => {
+                let m = if planar {
+                    InterfaceMatrices::planar_film(setup, stack).map_err(input)?
+                } else {
+                    let resp = response(scenario, i, stack, wl)?;
+                    let surface = Surface {
+                        texture: &*spec.texture,
+                        response: &*resp,
+                        n_above: optics.n_media[i],
+                        n_below: optics.n_media[i + 1],
+                        polarisation: solver.polarisation,
+                    };
+                    let job = crate::sampling::job_key(index as u32, i as u32 + 1);
+                    textured_matrices(&surface, setup, rays_per_bin, solver.seed, job)
+                        .map_err(input)?
+                };
+                if let Some(c) = ctx.cache {
+                    c.put(key, &m);
+                }
+                m
+            }
         };
-        if let Some(sink) = sink {
+        if let Some(sink) = ctx.sink {
             sink(&spec.name, wl, &m)?;
         }
         elements.push(StackElement::Interface(Box::new(m)));
@@ -119,7 +311,7 @@ fn one_wavelength(
             elements.push(StackElement::Thick(ThickLayer {
                 id: l.name.clone(),
                 index: optics.layer_indices[i],
-                thickness_um: l.thickness_um,
+                thickness_um: ctx.thickness_um[i],
             }));
         }
     }
@@ -139,20 +331,27 @@ fn one_wavelength(
     let dir = crate::geometry::Vec3::new(t.sin() * p.cos(), t.sin() * p.sin(), -t.cos());
     let mut incident = vec![0.0; bins.len()];
     incident[bins.index(dir)] = 1.0;
-    let r = stack
-        .solve(&incident, &SolverOptions::default())
+    let (r, binning) = stack
+        .solve_with_binning_error(
+            &incident,
+            &BinningCheck { keep_polar: 1 },
+            &SolverOptions::default(),
+        )
         .map_err(input)?;
 
-    // Generation profile: absorbed fraction per depth bin from the solver's G(z) per unit flux.
+    // Generation profile: absorbed fraction per depth bin, integrated exactly over each bin
+    // (`StackResult::absorbed_in_slabs`). The solver's layer is the volume-equivalent one;
+    // its depth is mapped linearly onto the profile's bins over the scenario thickness, so
+    // the bins add up to the absorptance.
+    let w_eq = ctx.thickness_um[scenario.absorber];
     let w_um = layers[scenario.absorber].thickness_um;
     let nb = solver.profile_bins.max(1);
-    let dz = w_um / nb as f64;
-    let profile = (0..nb)
-        .map(|b| {
-            let z = (b as f64 + 0.5) * dz;
-            r.generation_cm3_s(scenario.absorber, z, 1.0).unwrap_or(0.0) * dz * 1e-4
-        })
-        .collect();
+    let edges: Vec<f64> = (0..=nb).map(|b| w_eq * b as f64 / nb as f64).collect();
+    let profile = r
+        .absorbed_in_slabs(scenario.absorber, &edges)
+        .ok_or_else(|| {
+            RunError::Internal("generation profile: depth edges outside the layer".into())
+        })?;
     let a = r.thick_absorptance[scenario.absorber];
     let limits = crate::wafer::limits::limit_point(
         wl,
@@ -191,12 +390,13 @@ fn one_wavelength(
         entering_path_factor: 0.0,
         limits,
         path_length_enhancement: z,
+        binning_error: Some(binning),
     })
 }
 
 /// Runs every wavelength in matrix mode.
 pub fn run(scenario: &Scenario, progress: Progress) -> Result<RunResult, RunError> {
-    run_with(scenario, progress, None)
+    run_cached(scenario, progress, None, None)
 }
 
 /// Runs every wavelength in matrix mode and hands every interface's matrices to `sink`
@@ -206,13 +406,26 @@ pub fn run_with(
     progress: Progress,
     sink: Option<MatrixSink>,
 ) -> Result<RunResult, RunError> {
+    run_cached(scenario, progress, sink, None)
+}
+
+/// Runs every wavelength in matrix mode, taking interface matrices from `cache` where it has
+/// them and storing the ones it builds (see [`MatrixCache`]); `sink` as in [`run_with`].
+/// Results are bitwise the same with and without a cache.
+pub fn run_cached(
+    scenario: &Scenario,
+    progress: Progress,
+    sink: Option<MatrixSink>,
+    cache: Option<&MatrixCache>,
+) -> Result<RunResult, RunError> {
+    let ctx = Context::new(scenario, sink, cache);
     let grid = scenario.light.wavelengths.as_slice();
     let done = std::sync::atomic::AtomicUsize::new(0);
     let per: Vec<Result<WavelengthResult, RunError>> = grid
         .par_iter()
         .enumerate()
         .map(|(i, &wl)| {
-            let r = one_wavelength(scenario, i, wl, sink);
+            let r = one_wavelength(&ctx, i, wl);
             progress(
                 done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1,
                 grid.len(),
@@ -230,10 +443,135 @@ pub fn run_with(
     let mut assumptions = direct_assumptions();
     assumptions.push(
         "matrix mode: angular bins (equal étendue); light between interfaces is unpolarised; \
-         textures are traced without absorption inside their height range; standard errors \
-         of the traced matrices are not propagated into the spectra (reported as 0)"
+         textures are traced without absorption inside their height range, so each thick layer \
+         is solved with its volume-equivalent thickness (base-plane distance plus the mean \
+         height of the surface above, minus that of the surface below); standard errors of \
+         the traced matrices are not propagated into the spectra (reported as 0)"
             .into(),
     );
+    assumptions.push(format!(
+        "matrix mode binning error: {}",
+        super::result::BINNING_METHOD
+    ));
     RunResult::assemble(scenario, "matrix", wavelengths, edges, assumptions)
         .map_err(RunError::Internal)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const SMALL: &str = r#"
+name = "small-matrix"
+[light]
+wavelengths_nm = "900:1100:200"
+[[stack]]
+kind = "interface"
+name = "front"
+texture = "upright-pyramids-10um"
+coating = [{ material = "sinx-n2.09-vogt2015", thickness_nm = 75 }]
+[[stack]]
+kind = "layer"
+name = "wafer"
+material = "si"
+thickness_um = 120
+[[stack]]
+kind = "interface"
+name = "rear"
+texture = "planar"
+[below]
+material = "ag-mcpeak2015"
+[solver]
+mode = "matrix"
+rays = 2048
+polar_bins = 6
+azimuth_bins = 2
+"#;
+
+    fn scenario(thickness_um: f64) -> Scenario {
+        let text = SMALL.replace(
+            "thickness_um = 120",
+            &format!("thickness_um = {thickness_um}"),
+        );
+        Scenario::from_str(&text, std::path::Path::new("small.toml")).unwrap()
+    }
+
+    /// A thickness sweep reuses every interface's matrices (the key holds everything the
+    /// matrices depend on, and the wafer thickness is not part of it), and cached runs are
+    /// bitwise equal to uncached ones.
+    #[test]
+    fn cache_serves_a_thickness_sweep_and_changes_no_result() {
+        let cache = MatrixCache::default();
+        let a = run_cached(&scenario(120.0), &|_, _| {}, None, Some(&cache)).unwrap();
+        assert_eq!(
+            (cache.hits(), cache.misses()),
+            (0, 4),
+            "2 wavelengths × 2 interfaces"
+        );
+        let b = run_cached(&scenario(60.0), &|_, _| {}, None, Some(&cache)).unwrap();
+        assert_eq!((cache.hits(), cache.misses()), (4, 4));
+        assert!(cache.bytes() > 0);
+        let b_fresh = run(&scenario(60.0), &|_, _| {}).unwrap();
+        for (x, y) in b.wavelengths.iter().zip(&b_fresh.wavelengths) {
+            assert_eq!(x.layers[0].value, y.layers[0].value);
+            assert_eq!(x.reflectance.value, y.reflectance.value);
+        }
+        // A thinner wafer absorbs less near the band gap.
+        assert!(b.wavelengths[1].layers[0].value < a.wavelengths[1].layers[0].value);
+        // Anything that shapes the interfaces misses: another coating thickness.
+        let other = Scenario::from_str(
+            &SMALL.replace("thickness_nm = 75", "thickness_nm = 80"),
+            std::path::Path::new("small.toml"),
+        )
+        .unwrap();
+        run_cached(&other, &|_, _| {}, None, Some(&cache)).unwrap();
+        assert_eq!(cache.hits(), 4 + 2, "only the planar rear is shared");
+        // A zero budget stores nothing.
+        let none = MatrixCache::new(0);
+        run_cached(&scenario(120.0), &|_, _| {}, None, Some(&none)).unwrap();
+        assert_eq!(none.bytes(), 0);
+    }
+
+    /// Every matrix-mode figure carries a binning error estimate, integrated into the
+    /// currents; the generation profile (over the volume-equivalent layer, mapped onto the
+    /// scenario's depth bins) still integrates to the absorber's absorptance.
+    #[test]
+    fn matrix_results_carry_binning_errors() {
+        let r = run(&scenario(120.0), &|_, _| {}).unwrap();
+        let b = r.binning.as_ref().unwrap();
+        assert_eq!(b.bins, [7, 2]);
+        assert_eq!(b.coarse_bins, vec![[4, 2], [5, 2], [7, 1]]);
+        for w in &r.wavelengths {
+            let e = w.binning_error.as_ref().unwrap();
+            assert!(e.thick_absorptance[0] >= 0.0 && e.reflectance >= 0.0);
+            let g: f64 = w.profile.iter().sum();
+            // Exact slab integrals: the bins close to round-off.
+            assert!(
+                (g - w.layers[0].value).abs() < 1e-12,
+                "{} nm: ΣG dz = {g}, A = {}",
+                w.wavelength_nm,
+                w.layers[0].value
+            );
+        }
+        let j = r.absorber_current();
+        assert!(j.binning_error_ma_cm2.unwrap() > 0.0);
+        assert!(r.losses.iter().all(|l| l.binning_error_ma_cm2.is_some()));
+    }
+
+    /// Mean height of regular {111}-like upright pyramids filling the cell: a pyramid's volume
+    /// is a third of its bounding box, so ⟨h⟩ = h/3 (elementary geometry).
+    #[test]
+    fn mean_height_of_upright_pyramids_is_a_third() {
+        use crate::texture::RegularPyramids;
+        use crate::texture::pyramids::RegularPyramidsSpec;
+        let t = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
+        let h = t.z_range_um()[1];
+        let m = mean_height_um(&t);
+        assert!(
+            (m - h / 3.0).abs() < 2e-3 * h,
+            "⟨h⟩ = {m}, h/3 = {}",
+            h / 3.0
+        );
+        assert_eq!(mean_height_um(&crate::texture::Planar::new()), 0.0);
+    }
 }

@@ -12,7 +12,8 @@ mod direct;
 pub mod matrix;
 mod result;
 
-pub use result::{Current, Loss, RunResult, WavelengthResult};
+pub use matrix::MatrixCache;
+pub use result::{BINNING_METHOD, BinningSummary, Current, Loss, RunResult, WavelengthResult};
 
 use crate::scenario::{Mode, Scenario};
 
@@ -34,10 +35,21 @@ pub type Progress<'a> = &'a (dyn Fn(usize, usize) + Sync);
 /// Runs `scenario` and returns its results. Uses `scenario.solver.threads` threads when set
 /// (results do not depend on it).
 pub fn run(scenario: &Scenario, progress: Progress) -> Result<RunResult, RunError> {
+    run_with_cache(scenario, progress, None)
+}
+
+/// [`run`] with a [`MatrixCache`] for matrix mode (ignored in direct mode): runs of the same
+/// process that share interfaces (e.g. the points of a thickness sweep) build their
+/// matrices once. Results are the same with and without the cache.
+pub fn run_with_cache(
+    scenario: &Scenario,
+    progress: Progress,
+    cache: Option<&MatrixCache>,
+) -> Result<RunResult, RunError> {
     let started = std::time::Instant::now();
     let work = || match scenario.solver.mode {
         Mode::Direct => direct::run(scenario, progress),
-        Mode::Matrix => matrix::run(scenario, progress),
+        Mode::Matrix => matrix::run_cached(scenario, progress, None, cache),
     };
     let mut result = match scenario.solver.threads {
         Some(n) => rayon::ThreadPoolBuilder::new()

@@ -4,8 +4,18 @@
 use crate::scenario::Scenario;
 use crate::spectrum::Spectrum;
 use crate::tracer::Estimate;
+use crate::wafer::BinningError;
 use crate::wafer::limits::{LimitPoint, LimitSummary};
 use serde::Serialize;
+
+/// How matrix mode estimates its binning error (stated with every matrix-mode result; the
+/// reasoning is in `wafer::binning` and docs/results.md).
+pub const BINNING_METHOD: &str = "each wavelength is solved again from the same matrices \
+merged onto coarser bins (polar bins pairwise in both pairings, keeping the narrow normal bin; \
+azimuth bins pairwise when their count is even); the estimate is 2 × (the larger polar \
+difference + the azimuthal difference), a conservative Richardson-type bound (L. F. \
+Richardson, Phil. Trans. R. Soc. A 210, 307 (1911)); over a spectrum the estimates add \
+linearly (systematic, not random)";
 
 /// Everything computed at one wavelength. Fractions are of the incident power.
 #[derive(Clone, Debug, Serialize)]
@@ -38,6 +48,9 @@ pub struct WavelengthResult {
     pub limits: LimitPoint,
     /// Path-length enhancement Z (see `wafer::limits::path_length_enhancement`).
     pub path_length_enhancement: Option<f64>,
+    /// Matrix mode: the solver's binning error estimate of every figure above (non-negative
+    /// fractions of the incident power, see `wafer::binning`); `None` in direct mode.
+    pub binning_error: Option<BinningError>,
 }
 
 /// A photocurrent density with its standard error, mA/cm².
@@ -46,6 +59,10 @@ pub struct Current {
     pub name: String,
     pub j_ma_cm2: f64,
     pub std_error_ma_cm2: f64,
+    /// Matrix mode: binning error estimate, Σ over wavelengths of the per-wavelength
+    /// estimates times the photocurrent weights (linear: systematic errors); `None` (null)
+    /// in direct mode.
+    pub binning_error_ma_cm2: Option<f64>,
 }
 
 /// One entry of the loss breakdown: photon flux expressed as current density, mA/cm².
@@ -54,6 +71,22 @@ pub struct Loss {
     pub name: String,
     pub j_ma_cm2: f64,
     pub std_error_ma_cm2: f64,
+    /// As [`Current::binning_error_ma_cm2`].
+    pub binning_error_ma_cm2: Option<f64>,
+}
+
+/// Matrix mode: the bins and the binning error estimate of a run.
+#[derive(Clone, Debug, Serialize)]
+pub struct BinningSummary {
+    /// (polar, azimuth) bins of the solve, the narrow normal-incidence bin included.
+    pub bins: [usize; 2],
+    /// (polar, azimuth) bins of the coarse solves of the estimate.
+    pub coarse_bins: Vec<[usize; 2]>,
+    /// How the estimate is made ([`BINNING_METHOD`]).
+    pub method: String,
+    /// Largest per-wavelength estimate for the absorber's absorptance, and where.
+    pub max_absorber_absorptance: f64,
+    pub max_at_wavelength_nm: f64,
 }
 
 /// The results of a run.
@@ -99,6 +132,8 @@ pub struct RunResult {
     pub wall_time_s: f64,
     /// Modelling assumptions, stated with every result.
     pub assumptions: Vec<String>,
+    /// Matrix mode: bins and binning error estimate; `None` in direct mode.
+    pub binning: Option<BinningSummary>,
 }
 
 /// Photon flux per grid point, cm⁻² s⁻¹: the weights that turn an absorptance curve on the
@@ -122,6 +157,11 @@ fn integrate(g_ma: &[f64], x: &[Estimate]) -> (f64, f64) {
         .map(|(g, e)| (g * e.std_error).powi(2))
         .sum();
     (v, s2.sqrt())
+}
+
+/// Σ g_j e_j for non-negative per-wavelength error estimates (linear sum: systematic).
+fn integrate_linear(g_ma: &[f64], e: &[f64]) -> f64 {
+    g_ma.iter().zip(e).map(|(g, x)| g * x.abs()).sum()
 }
 
 impl RunResult {
@@ -166,6 +206,19 @@ impl RunResult {
             format!("transmitted to {}", below.id())
         };
 
+        // Binning error columns (matrix mode: every wavelength has an estimate).
+        let has_binning =
+            !wavelengths.is_empty() && wavelengths.iter().all(|w| w.binning_error.is_some());
+        let bin_col = |f: &dyn Fn(&BinningError) -> f64| -> Option<f64> {
+            has_binning.then(|| {
+                let e: Vec<f64> = wavelengths
+                    .iter()
+                    .map(|w| w.binning_error.as_ref().map_or(0.0, f))
+                    .collect();
+                integrate_linear(&g, &e)
+            })
+        };
+
         // Currents: the absorber first, then every other absorbing part.
         let mut currents = Vec::new();
         let (j, se) = integrate(&g, &column(&|w| w.layers[absorber]));
@@ -173,46 +226,71 @@ impl RunResult {
             name: layer_names[absorber].clone(),
             j_ma_cm2: j,
             std_error_ma_cm2: se,
+            binning_error_ma_cm2: bin_col(&|b| b.thick_absorptance[absorber]),
         });
         let mut losses = Vec::new();
-        let push_loss = |name: String, x: Vec<Estimate>, losses: &mut Vec<Loss>| {
-            let (j, se) = integrate(&g, &x);
-            losses.push(Loss {
-                name,
-                j_ma_cm2: j,
-                std_error_ma_cm2: se,
-            });
-        };
+        let push_loss =
+            |name: String, x: Vec<Estimate>, binning: Option<f64>, losses: &mut Vec<Loss>| {
+                let (j, se) = integrate(&g, &x);
+                losses.push(Loss {
+                    name,
+                    j_ma_cm2: j,
+                    std_error_ma_cm2: se,
+                    binning_error_ma_cm2: binning,
+                });
+            };
         push_loss(
             "front reflection".into(),
             column(&|w| Estimate {
                 value: w.reflectance.value - w.escape.value,
                 std_error: (w.reflectance.std_error.powi(2) + w.escape.std_error.powi(2)).sqrt(),
             }),
+            bin_col(&|b| b.reflectance_front),
             &mut losses,
         );
         push_loss(
             "escape (entered, left through the front)".into(),
             column(&|w| w.escape),
+            bin_col(&|b| b.escape),
             &mut losses,
         );
         for (i, names) in film_names.iter().enumerate() {
             for (k, name) in names.iter().enumerate() {
-                push_loss(name.clone(), column(&|w| w.films[i][k]), &mut losses);
+                push_loss(
+                    name.clone(),
+                    column(&|w| w.films[i][k]),
+                    bin_col(&|b| b.film_absorptance[i][k]),
+                    &mut losses,
+                );
             }
         }
         for (l, name) in layer_names.iter().enumerate() {
             if l != absorber {
-                push_loss(name.clone(), column(&|w| w.layers[l]), &mut losses);
+                push_loss(
+                    name.clone(),
+                    column(&|w| w.layers[l]),
+                    bin_col(&|b| b.thick_absorptance[l]),
+                    &mut losses,
+                );
             }
         }
-        push_loss(exit_name.clone(), column(&|w| w.transmittance), &mut losses);
+        push_loss(
+            exit_name.clone(),
+            column(&|w| w.transmittance),
+            bin_col(&|b| b.transmittance),
+            &mut losses,
+        );
         let abandoned: Vec<Estimate> = column(&|w| Estimate {
             value: w.abandoned,
             std_error: 0.0,
         });
         if abandoned.iter().any(|a| a.value.abs() > 1e-9) {
-            push_loss("abandoned rays (numerics)".into(), abandoned, &mut losses);
+            push_loss(
+                "abandoned rays (numerics)".into(),
+                abandoned,
+                bin_col(&|b| b.unaccounted),
+                &mut losses,
+            );
         }
         for l in &losses[2..] {
             if !l.name.starts_with("transmitted") && !l.name.starts_with("abandoned") {
@@ -220,9 +298,35 @@ impl RunResult {
                     name: l.name.clone(),
                     j_ma_cm2: l.j_ma_cm2,
                     std_error_ma_cm2: l.std_error_ma_cm2,
+                    binning_error_ma_cm2: l.binning_error_ma_cm2,
                 });
             }
         }
+        let binning = if has_binning {
+            let (mut worst, mut at) = (0.0, grid[0]);
+            for w in &wavelengths {
+                let e = w
+                    .binning_error
+                    .as_ref()
+                    .map_or(0.0, |b| b.thick_absorptance[absorber]);
+                if e > worst {
+                    (worst, at) = (e, w.wavelength_nm);
+                }
+            }
+            let first = wavelengths[0].binning_error.as_ref();
+            Some(BinningSummary {
+                bins: [
+                    scenario.solver.polar_bins.max(2) + 1,
+                    scenario.solver.azimuth_bins,
+                ],
+                coarse_bins: first.map_or(vec![], |b| b.coarse_bins.clone()),
+                method: BINNING_METHOD.to_string(),
+                max_absorber_absorptance: worst,
+                max_at_wavelength_nm: at,
+            })
+        } else {
+            None
+        };
         let max_current_ma_cm2 = g.iter().sum();
 
         // Generation profile: G_b = Σ_j Φ_j · f_{j,b} / Δz_b.
@@ -291,6 +395,7 @@ impl RunResult {
             entering_azimuth_bins: crate::tracer::wafer_trace::ENTER_AZIMUTH_BINS,
             wall_time_s: 0.0,
             assumptions,
+            binning,
         })
     }
 

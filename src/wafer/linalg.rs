@@ -10,6 +10,7 @@
 //! I − (substochastic operator), diagonally dominant when light is absorbed or escapes.
 
 use crate::redistribution::Matrix;
+use crate::redistribution::dense::gemm_sub;
 
 /// Columns per panel of the blocked factorisation (a panel row block of U, 64 × n f64,
 /// stays in a 256 KB-class cache for n up to ~4000).
@@ -38,9 +39,9 @@ impl Lu {
     ///
     /// Blocked right-looking form (Golub & Van Loan 2013, §3.4.9): panels of `PANEL` (64)
     /// columns are factorised with row pivoting applied across whole rows, then the block row
-    /// of U is solved and the trailing matrix updated in one sweep per panel, so the trailing
-    /// rows are streamed once per panel instead of once per column. Same arithmetic as the
-    /// unblocked algorithm up to the order of the additions.
+    /// of U is solved and the trailing matrix updated by one blocked matrix product per panel
+    /// ([`gemm_sub`], where nearly all the work is). Same arithmetic as the unblocked
+    /// algorithm up to the order of the additions.
     pub fn factor(a: Matrix) -> Result<Lu, Singular> {
         assert_eq!(
             a.rows(),
@@ -102,19 +103,25 @@ impl Lu {
                         }
                     }
                 }
-                // Trailing update A22 −= L21 U12, one pass over the trailing rows.
+                // Trailing update A22 −= L21 U12 by the blocked product kernel (L21 copied
+                // out: it shares rows with A22).
                 let (top, rest) = lu.split_at_mut(k1 * n);
-                for row in rest.chunks_mut(n) {
-                    let (l21, a22) = row.split_at_mut(k1);
-                    for k in k0..k1 {
-                        let l = l21[k];
-                        if l != 0.0 {
-                            for (x, y) in a22.iter_mut().zip(&top[k * n + k1..(k + 1) * n]) {
-                                *x -= l * y;
-                            }
-                        }
-                    }
+                let (m, kb) = (n - k1, k1 - k0);
+                let mut l21 = Vec::with_capacity(m * kb);
+                for row in rest.chunks(n) {
+                    l21.extend_from_slice(&row[k0..k1]);
                 }
+                gemm_sub(
+                    m,
+                    n - k1,
+                    kb,
+                    &l21,
+                    kb,
+                    &top[k0 * n + k1..],
+                    n,
+                    &mut rest[k1..],
+                    n,
+                );
             }
             k0 = k1;
         }

@@ -6,11 +6,13 @@
 //! round-off. Units at the API: wavelength nm, thickness µm, α cm⁻¹, generation cm⁻³ s⁻¹.
 //! Not here: building interface matrices (`redistribution`, `tracer`), spectra (`spectrum`).
 
+pub mod binning;
 pub mod limits;
 pub mod linalg;
 pub mod special;
 pub mod stack;
 
+pub use binning::{BinningCheck, BinningError};
 pub use stack::{
     LayerFluxes, SemiInfinite, SolverOptions, Stack, StackElement, StackResult, ThickLayer,
     memory_estimate_bytes,
@@ -45,6 +47,8 @@ pub enum WaferError {
         interface: usize,
         column: usize,
     },
+    #[error("binning error estimate: {problem}\n  fix: {fix}")]
+    Binning { problem: String, fix: String },
     #[error(
         "internal: at {wavelength_nm} nm R + ΣA + T misses 1 by {residual:e} (a lightfold bug; please report it with the stack)"
     )]
