@@ -65,6 +65,22 @@ fn the_demo_file_checks() {
     );
 }
 
+/// In matrix mode the ray budget counts per angle bin of each textured interface, and the
+/// summary says so (at least 2048 per bin, whatever smaller number is given).
+#[test]
+fn matrix_mode_states_rays_per_angle_bin() {
+    let p = Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/sweep/demo-matrix.toml");
+    let o = check(&[p.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let text = out(&o);
+    assert!(text.contains("redistribution matrices"), "{text}");
+    assert!(
+        text.contains("rays per angle bin and side for each textured interface"),
+        "{text}"
+    );
+    assert!(!text.contains("rays per wavelength"), "{text}");
+}
+
 #[test]
 fn a_bad_scenario_lists_every_problem_and_exits_1() {
     let dir = tempfile::tempdir().unwrap();

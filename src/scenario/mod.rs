@@ -200,6 +200,23 @@ pub enum RayBudget {
     },
 }
 
+/// Fewest rays per angle bin and side with which matrix mode traces a textured interface.
+pub const MIN_MATRIX_RAYS_PER_BIN: u64 = 2048;
+/// Rays per angle bin and side in matrix mode when the budget is a target precision.
+pub const MATRIX_RAYS_PER_BIN_FOR_PRECISION: u64 = 4096;
+
+impl RayBudget {
+    /// Rays per angle bin (and side) with which matrix mode traces each textured interface:
+    /// a fixed budget counts per bin there (at least [`MIN_MATRIX_RAYS_PER_BIN`]); a
+    /// precision target uses [`MATRIX_RAYS_PER_BIN_FOR_PRECISION`].
+    pub fn matrix_rays_per_bin(self) -> u64 {
+        match self {
+            RayBudget::Fixed(n) => n.max(MIN_MATRIX_RAYS_PER_BIN),
+            RayBudget::Precision { .. } => MATRIX_RAYS_PER_BIN_FOR_PRECISION,
+        }
+    }
+}
+
 /// Solver settings.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Solver {

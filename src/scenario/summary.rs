@@ -15,7 +15,13 @@ fn polarisation_text(p: InputPolarisation) -> String {
     }
 }
 
-fn rays_text(r: RayBudget) -> String {
+fn rays_text(r: RayBudget, mode: Mode) -> String {
+    if mode == Mode::Matrix {
+        return format!(
+            "{} rays per angle bin and side for each textured interface",
+            r.matrix_rays_per_bin()
+        );
+    }
     match r {
         RayBudget::Fixed(n) => format!("{n} rays per wavelength"),
         RayBudget::Precision {
@@ -142,7 +148,7 @@ pub(super) fn text(s: &Scenario) -> String {
     out += &format!(
         "  solver: {mode}, {}, seed {}, {pol}, {threads}; bins: {} polar × {} azimuthal, \
          profile {}\n",
-        rays_text(so.rays),
+        rays_text(so.rays, so.mode),
         so.seed,
         so.polar_bins,
         so.azimuth_bins,
