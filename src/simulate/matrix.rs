@@ -11,12 +11,16 @@
 use super::direct::{assumptions as direct_assumptions, optics_at, response};
 use super::result::{RunResult, WavelengthResult};
 use super::{Progress, RunError};
-use crate::redistribution::traced::textured_matrices;
+use crate::redistribution::traced::{
+    MAX_REPLICAS, ReplicatedMatrices, textured_matrices_with_replicas,
+};
 use crate::redistribution::{AngleBins, InterfaceMatrices, InterfaceSetup, MediumInfo};
 use crate::scenario::{RayBudget, Scenario};
 use crate::texture::{SurfaceKind, Symmetry, Texture};
 use crate::tracer::{Estimate, Surface};
-use crate::wafer::{BinningCheck, SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer};
+use crate::wafer::{
+    BinningCheck, SemiInfinite, SolverOptions, Stack, StackElement, StackResult, ThickLayer,
+};
 use rayon::prelude::*;
 use std::collections::HashMap;
 use std::hash::{Hash, Hasher};
@@ -25,7 +29,8 @@ use std::sync::{Arc, Mutex};
 /// Default memory a [`MatrixCache`] may fill, bytes (1 GiB).
 pub const DEFAULT_CACHE_BYTES: usize = 1 << 30;
 
-/// Interface matrices kept between runs of one process, e.g. the points of a sweep.
+/// Interface matrices (pooled and replicas, see [`ReplicatedMatrices`]) kept between runs of
+/// one process, e.g. the points of a sweep.
 ///
 /// An interface's matrices depend on its texture, coating, the media on either side (real
 /// indices; the full index of the exit medium), the wavelength and its index in the grid (it
@@ -41,7 +46,7 @@ pub struct MatrixCache {
 
 #[derive(Debug, Default)]
 struct CacheInner {
-    map: HashMap<String, Arc<InterfaceMatrices>>,
+    map: HashMap<String, Arc<ReplicatedMatrices>>,
     bytes: usize,
     hits: u64,
     misses: u64,
@@ -77,7 +82,7 @@ impl MatrixCache {
     pub fn bytes(&self) -> usize {
         self.lock().bytes
     }
-    fn get(&self, key: &str) -> Option<Arc<InterfaceMatrices>> {
+    fn get(&self, key: &str) -> Option<Arc<ReplicatedMatrices>> {
         let mut c = self.lock();
         let found = c.map.get(key).cloned();
         if found.is_some() {
@@ -87,12 +92,12 @@ impl MatrixCache {
         }
         found
     }
-    fn put(&self, key: String, m: &InterfaceMatrices) {
-        let size = matrices_bytes(m);
+    fn put(&self, key: String, m: &Arc<ReplicatedMatrices>) {
+        let size = matrices_bytes(&m.pooled) + m.replicas.iter().map(matrices_bytes).sum::<usize>();
         let mut c = self.lock();
         if c.bytes + size <= self.budget_bytes && !c.map.contains_key(&key) {
             c.bytes += size;
-            c.map.insert(key, Arc::new(m.clone()));
+            c.map.insert(key, Arc::clone(m));
         }
     }
 }
@@ -152,12 +157,50 @@ fn input(e: impl std::fmt::Display) -> RunError {
     RunError::Input(e.to_string())
 }
 
-fn exact(value: f64) -> Estimate {
-    Estimate {
-        value,
-        std_error: 0.0,
-    }
+/// The figures of a solve whose standard errors the replicas estimate, in a fixed order:
+/// R, escape, T, each thick layer's absorptance, each film's (interfaces top to bottom).
+fn figures(r: &StackResult) -> Vec<f64> {
+    let mut v = vec![r.reflectance, r.escape, r.transmittance];
+    v.extend(&r.thick_absorptance);
+    v.extend(r.film_absorptance.iter().flatten());
+    v
 }
+
+/// Standard error of a ray-weighted mean of independent replica estimates.
+///
+/// `replicas[r]` holds the figures of replica r, traced with `weights[r]` rays (per bin);
+/// the pooled estimate is their weighted mean x̄ = Σ w_r x_r / W with W = Σ w_r. With
+/// Var(x_r) = σ²/w_r, σ² is estimated by Σ w_r (x_r − x̄)² / (R − 1) and
+/// SE(x̄) = √(σ̂² / W). For equal weights this is the textbook s/√R, s the sample standard
+/// deviation of the R replicas (the standard error of a mean of independent replicas,
+/// e.g. G. S. Fishman, *Monte Carlo: Concepts, Algorithms, and Applications*, Springer
+/// (1996), §3.1, from memory; common practice). NaN for fewer than two replicas (unknown).
+pub fn replica_std_errors(replicas: &[Vec<f64>], weights: &[f64]) -> Vec<f64> {
+    let n_fig = replicas.first().map_or(0, Vec::len);
+    let r = replicas.len().min(weights.len());
+    if r < 2 {
+        return vec![f64::NAN; n_fig];
+    }
+    let w_sum: f64 = weights[..r].iter().sum();
+    (0..n_fig)
+        .map(|q| {
+            let mean = (0..r).map(|k| weights[k] * replicas[k][q]).sum::<f64>() / w_sum;
+            let s2 = (0..r)
+                .map(|k| weights[k] * (replicas[k][q] - mean).powi(2))
+                .sum::<f64>()
+                / (r - 1) as f64;
+            (s2 / w_sum).sqrt()
+        })
+        .collect()
+}
+
+/// How matrix mode estimates its Monte Carlo standard errors (stated with every result).
+pub const REPLICA_METHOD: &str = "each textured interface's rays are split into up to 4 \
+independent replicas (disjoint batches of the same rays); the stack is solved once per replica \
+with replica r of every textured interface at once (planar interfaces are exact), and the \
+standard error of each figure is the ray-weighted sample standard deviation of the replica \
+results over √(number of replicas); planar-only stacks have none (0); over a spectrum the \
+errors add in quadrature";
 
 /// Receives each interface's matrices as they are built: (interface name, wavelength, matrices).
 pub type MatrixSink<'a> =
@@ -229,11 +272,9 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
     };
     let top = scenario.above.material.index_at(wl).map_err(input)?;
     let bottom = scenario.below.material.index_at(wl).map_err(input)?;
-    let mut elements = vec![StackElement::Medium(SemiInfinite {
-        id: scenario.above.material.id().into(),
-        index: top,
-    })];
     let layers: Vec<_> = scenario.layers().collect();
+    let mut interfaces: Vec<Arc<ReplicatedMatrices>> = Vec::new();
+    let mut textured = Vec::new();
     let n_if = optics.stacks.len();
     for (i, spec) in scenario.interfaces().enumerate() {
         let stack = &optics.stacks[i];
@@ -277,12 +318,19 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
             "{:016x}|{i}|{index}|{setup:?}|{stack:?}|{rays_per_bin}|{}|{:?}|{planar}",
             ctx.fingerprints[i], solver.seed, solver.polarisation
         );
+        if !planar {
+            textured.push(i);
+        }
         let cached = ctx.cache.and_then(|c| c.get(&key));
         let m = match cached {
-            Some(m) => (*m).clone(),
+            Some(m) => m,
             None => {
                 let m = if planar {
-                    InterfaceMatrices::planar_film(setup, stack).map_err(input)?
+                    ReplicatedMatrices {
+                        pooled: InterfaceMatrices::planar_film(setup, stack).map_err(input)?,
+                        replicas: vec![],
+                        replica_rays_per_bin: vec![],
+                    }
                 } else {
                     let resp = response(scenario, i, stack, wl)?;
                     let surface = Surface {
@@ -293,9 +341,17 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
                         polarisation: solver.polarisation,
                     };
                     let job = crate::sampling::job_key(index as u32, i as u32 + 1);
-                    textured_matrices(&surface, setup, rays_per_bin, solver.seed, job)
-                        .map_err(input)?
+                    textured_matrices_with_replicas(
+                        &surface,
+                        setup,
+                        rays_per_bin,
+                        solver.seed,
+                        job,
+                        MAX_REPLICAS,
+                    )
+                    .map_err(input)?
                 };
+                let m = Arc::new(m);
                 if let Some(c) = ctx.cache {
                     c.put(key, &m);
                 }
@@ -303,26 +359,37 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
             }
         };
         if let Some(sink) = ctx.sink {
-            sink(&spec.name, wl, &m)?;
+            sink(&spec.name, wl, &m.pooled)?;
         }
-        elements.push(StackElement::Interface(Box::new(m)));
-        if i + 1 < n_if {
-            let l = layers[i];
-            elements.push(StackElement::Thick(ThickLayer {
-                id: l.name.clone(),
-                index: optics.layer_indices[i],
-                thickness_um: ctx.thickness_um[i],
-            }));
-        }
+        interfaces.push(m);
     }
-    elements.push(StackElement::Medium(SemiInfinite {
-        id: scenario.below.material.id().into(),
-        index: bottom,
-    }));
-    let stack = Stack::new(wl, elements)
-        .map_err(input)?
-        .with_wafer_layer(scenario.absorber)
-        .map_err(input)?;
+
+    // The stack with each interface's matrices chosen by `pick`
+    let build = |pick: &dyn Fn(usize) -> InterfaceMatrices| -> Result<Stack, RunError> {
+        let mut elements = vec![StackElement::Medium(SemiInfinite {
+            id: scenario.above.material.id().into(),
+            index: top,
+        })];
+        for i in 0..n_if {
+            elements.push(StackElement::Interface(Box::new(pick(i))));
+            if i + 1 < n_if {
+                elements.push(StackElement::Thick(ThickLayer {
+                    id: layers[i].name.clone(),
+                    index: optics.layer_indices[i],
+                    thickness_um: ctx.thickness_um[i],
+                }));
+            }
+        }
+        elements.push(StackElement::Medium(SemiInfinite {
+            id: scenario.below.material.id().into(),
+            index: bottom,
+        }));
+        Stack::new(wl, elements)
+            .map_err(input)?
+            .with_wafer_layer(scenario.absorber)
+            .map_err(input)
+    };
+    let stack = build(&|i| interfaces[i].pooled.clone())?;
     let light = &scenario.light;
     let (t, p) = (
         light.polar_angle_deg.to_radians(),
@@ -338,6 +405,57 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
             &SolverOptions::default(),
         )
         .map_err(input)?;
+    drop(stack);
+
+    // Monte Carlo standard errors: the stack solved once per replica, replica r of every
+    // textured interface at once (planar interfaces are exact and keep their matrices).
+    let n_fig = figures(&r).len();
+    let std_errors = match textured.first() {
+        None => vec![0.0; n_fig],
+        Some(&first) => {
+            let n_rep = interfaces[first].replicas.len();
+            let weights = &interfaces[first].replica_rays_per_bin;
+            if textured
+                .iter()
+                .any(|&i| interfaces[i].replica_rays_per_bin != *weights)
+            {
+                return Err(RunError::Internal(
+                    "textured interfaces traced with different replica splits".into(),
+                ));
+            }
+            let mut replica_figures = Vec::with_capacity(n_rep);
+            for k in 0..n_rep {
+                let s = build(&|i| {
+                    let m = &interfaces[i];
+                    if m.replicas.is_empty() {
+                        m.pooled.clone()
+                    } else {
+                        m.replicas[k].clone()
+                    }
+                })?;
+                let rk = s
+                    .solve(&incident, &SolverOptions::default())
+                    .map_err(input)?;
+                replica_figures.push(figures(&rk));
+            }
+            let w: Vec<f64> = weights.iter().map(|&x| x as f64).collect();
+            replica_std_errors(&replica_figures, &w)
+        }
+    };
+    let mut se = std_errors.into_iter();
+    let mut est = |value: f64| Estimate {
+        value,
+        std_error: se.next().unwrap_or(f64::NAN),
+    };
+    let reflectance = est(r.reflectance);
+    let escape = est(r.escape);
+    let transmittance = est(r.transmittance);
+    let layer_estimates: Vec<Estimate> = r.thick_absorptance.iter().map(|v| est(*v)).collect();
+    let film_estimates: Vec<Vec<Estimate>> = r
+        .film_absorptance
+        .iter()
+        .map(|f| f.iter().map(|v| est(*v)).collect())
+        .collect();
 
     // Generation profile: absorbed fraction per depth bin, integrated exactly over each bin
     // (`StackResult::absorbed_in_slabs`). The solver's layer is the volume-equivalent one;
@@ -367,15 +485,11 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
     );
     Ok(WavelengthResult {
         wavelength_nm: wl,
-        reflectance: exact(r.reflectance),
-        escape: exact(r.escape),
-        transmittance: exact(r.transmittance),
-        layers: r.thick_absorptance.iter().map(|v| exact(*v)).collect(),
-        films: r
-            .film_absorptance
-            .iter()
-            .map(|f| f.iter().map(|v| exact(*v)).collect())
-            .collect(),
+        reflectance,
+        escape,
+        transmittance,
+        layers: layer_estimates,
+        films: film_estimates,
         abandoned: r.unaccounted,
         rays: rays_per_bin * bins.len() as u64 * 2 * n_if as u64,
         lost_rays: 0,
@@ -445,10 +559,10 @@ pub fn run_cached(
         "matrix mode: angular bins (equal étendue); light between interfaces is unpolarised; \
          textures are traced without absorption inside their height range, so each thick layer \
          is solved with its volume-equivalent thickness (base-plane distance plus the mean \
-         height of the surface above, minus that of the surface below); standard errors of \
-         the traced matrices are not propagated into the spectra (reported as 0)"
+         height of the surface above, minus that of the surface below)"
             .into(),
     );
+    assumptions.push(format!("matrix mode standard errors: {REPLICA_METHOD}"));
     assumptions.push(format!(
         "matrix mode binning error: {}",
         super::result::BINNING_METHOD
