@@ -158,9 +158,15 @@ fn input(e: impl std::fmt::Display) -> RunError {
 }
 
 /// The figures of a solve whose standard errors the replicas estimate, in a fixed order:
-/// R, escape, T, each thick layer's absorptance, each film's (interfaces top to bottom).
+/// R, escape, T, front reflection, each thick layer's absorptance, each film's (interfaces
+/// top to bottom).
 fn figures(r: &StackResult) -> Vec<f64> {
-    let mut v = vec![r.reflectance, r.escape, r.transmittance];
+    let mut v = vec![
+        r.reflectance,
+        r.escape,
+        r.transmittance,
+        r.reflectance_front,
+    ];
     v.extend(&r.thick_absorptance);
     v.extend(r.film_absorptance.iter().flatten());
     v
@@ -450,6 +456,7 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
     let reflectance = est(r.reflectance);
     let escape = est(r.escape);
     let transmittance = est(r.transmittance);
+    let front_reflection_std_error = Some(est(r.reflectance_front).std_error);
     let layer_estimates: Vec<Estimate> = r.thick_absorptance.iter().map(|v| est(*v)).collect();
     let film_estimates: Vec<Vec<Estimate>> = r
         .film_absorptance
@@ -504,6 +511,7 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
         entering_path_factor: 0.0,
         limits,
         path_length_enhancement: z,
+        front_reflection_std_error,
         binning_error: Some(binning),
     })
 }
@@ -629,6 +637,8 @@ azimuth_bins = 2
         for (x, y) in b.wavelengths.iter().zip(&b_fresh.wavelengths) {
             assert_eq!(x.layers[0].value, y.layers[0].value);
             assert_eq!(x.reflectance.value, y.reflectance.value);
+            assert_eq!(x.layers[0].std_error, y.layers[0].std_error);
+            assert!(x.layers[0].std_error > 0.0, "textured front: replica SE");
         }
         // A thinner wafer absorbs less near the band gap.
         assert!(b.wavelengths[1].layers[0].value < a.wavelengths[1].layers[0].value);
@@ -670,6 +680,116 @@ azimuth_bins = 2
         let j = r.absorber_current();
         assert!(j.binning_error_ma_cm2.unwrap() > 0.0);
         assert!(r.losses.iter().all(|l| l.binning_error_ma_cm2.is_some()));
+    }
+
+    const TEXTURED: &str = r#"
+name = "replica-se"
+[light]
+wavelengths_nm = "1000:1100:100"
+[[stack]]
+kind = "interface"
+name = "front"
+texture = "random-pyramids-3um"
+[[stack]]
+kind = "layer"
+name = "wafer"
+material = "si"
+thickness_um = 100
+[[stack]]
+kind = "interface"
+name = "rear"
+texture = "planar"
+[below]
+material = "air"
+[solver]
+mode = "matrix"
+rays = 4096
+polar_bins = 3
+azimuth_bins = 1
+seed = SEED
+"#;
+
+    /// The replica standard error agrees with the actual scatter between independent runs:
+    /// a random-pyramid front traced as 4 replicas of 1024 rays per bin, 12 seeds. The check
+    /// compares the mean reported SE with the sample standard deviation over the seeds (the
+    /// quantity the SE estimates, Fishman 1996 §3.1); with 12 runs that deviation is itself
+    /// uncertain by ≈ 20 %, and each reported SE (3 degrees of freedom) by ≈ 40 %, so the
+    /// ratio must lie within [0.3, 3]. Seen when written (seeds 1–12): absorber current
+    /// SE 0.0231 vs scatter 0.0193 mA/cm² (ratio 1.20); front reflection loss 0.0155 vs
+    /// 0.0157 (0.99); reflectance at 1100 nm 9.2e-3 vs 7.2e-3 (1.27). Seeds 1–24 gave
+    /// 1.19, 1.27, 1.25. Before the front reflection had its own replica error, the
+    /// quadrature of R and escape gave 2.4 for it (R and escape are correlated).
+    #[test]
+    fn replica_standard_errors_match_the_scatter_between_seeds() {
+        let runs: Vec<RunResult> = (1..=12)
+            .map(|seed| {
+                let text = TEXTURED.replace("SEED", &seed.to_string());
+                let s = Scenario::from_str(&text, std::path::Path::new("t.toml")).unwrap();
+                run(&s, &|_, _| {}).unwrap()
+            })
+            .collect();
+        let check = |what: &str, x: &dyn Fn(&RunResult) -> Estimate| {
+            let v: Vec<Estimate> = runs.iter().map(x).collect();
+            let n = v.len() as f64;
+            let mean = v.iter().map(|e| e.value).sum::<f64>() / n;
+            let sd = (v.iter().map(|e| (e.value - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+            let se = v.iter().map(|e| e.std_error).sum::<f64>() / n;
+            eprintln!(
+                "{what}: mean SE {se:.4e}, scatter {sd:.4e}, ratio {:.3}",
+                se / sd
+            );
+            assert!(v.iter().all(|e| e.std_error > 0.0), "{what}: {v:?}");
+            assert!(
+                (0.3..=3.0).contains(&(se / sd)),
+                "{what}: reported SE {se:.3e} vs scatter between seeds {sd:.3e}"
+            );
+        };
+        let current = |r: &RunResult| {
+            let c = r.absorber_current();
+            Estimate {
+                value: c.j_ma_cm2,
+                std_error: c.std_error_ma_cm2,
+            }
+        };
+        check("absorber current, mA/cm²", &current);
+        check("front reflection loss, mA/cm²", &|r: &RunResult| {
+            Estimate {
+                value: r.losses[0].j_ma_cm2,
+                std_error: r.losses[0].std_error_ma_cm2,
+            }
+        });
+        check("reflectance at 1100 nm", &|r: &RunResult| {
+            r.wavelengths[1].reflectance
+        });
+    }
+
+    /// Planar interfaces are exact (analytic matrices): a planar-only stack reports standard
+    /// errors of exactly 0 in every figure and current.
+    #[test]
+    fn planar_only_stacks_have_zero_standard_error() {
+        let text = SMALL.replace("upright-pyramids-10um", "planar");
+        let s = Scenario::from_str(&text, std::path::Path::new("p.toml")).unwrap();
+        let r = run(&s, &|_, _| {}).unwrap();
+        for w in &r.wavelengths {
+            let all = [w.reflectance, w.escape, w.transmittance]
+                .into_iter()
+                .chain(w.layers.iter().copied())
+                .chain(w.films.iter().flatten().copied());
+            assert!(all.into_iter().all(|e| e.std_error == 0.0), "{w:?}");
+        }
+        assert!(r.currents.iter().all(|c| c.std_error_ma_cm2 == 0.0));
+        assert!(r.losses.iter().all(|l| l.std_error_ma_cm2 == 0.0));
+    }
+
+    /// The replica estimator: equal weights give s/√R (s the sample standard deviation);
+    /// one replica gives an unknown (NaN) error.
+    #[test]
+    fn replica_estimator_is_the_standard_error_of_the_mean() {
+        // Replicas 1, 2, 3, 6: mean 3, s² = (4 + 1 + 0 + 9)/3 = 14/3, SE = √(14/3 / 4).
+        let reps = vec![vec![1.0], vec![2.0], vec![3.0], vec![6.0]];
+        let se = replica_std_errors(&reps, &[5.0; 4]);
+        assert!((se[0] - (14.0f64 / 12.0).sqrt()).abs() < 1e-15, "{se:?}");
+        assert!(replica_std_errors(&reps[..1], &[1.0])[0].is_nan());
     }
 
     /// Mean height of regular {111}-like upright pyramids filling the cell: a pyramid's volume
