@@ -391,6 +391,55 @@ mod tests {
         assert!(mc.audit.energy_max_abs < 1e-12, "{:?}", mc.audit);
     }
 
+    /// Replicas partition the pooled rays: the pooled matrices are those of
+    /// `textured_matrices` bit for bit, and their ray-weighted mean is the pooled estimate
+    /// (each column is a ratio Σs/Σn over batches of equal launched weight per ray).
+    #[test]
+    fn replicas_partition_the_pooled_rays() {
+        assert_eq!(replica_count(2048, MAX_REPLICAS), 2);
+        assert_eq!(replica_count(5000, MAX_REPLICAS), 4);
+        assert_eq!(replica_count(5000, 1), 0);
+        let bins = AngleBins::equal_etendue(3, 1, Symmetry::Isotropic).unwrap();
+        let resp = BareInterface {
+            n_above: 1.0,
+            n_below: 3.5,
+        };
+        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
+        let surf = Surface {
+            texture: &tex,
+            response: &resp,
+            n_above: 1.0,
+            n_below: 3.5,
+            polarisation: PolarisationMode::Stokes,
+        };
+        let s = || setup(bins.clone(), 1.0, 3.5);
+        let plain = textured_matrices(&surf, s(), 5000, 4, 7).unwrap();
+        let rep = textured_matrices_with_replicas(&surf, s(), 5000, 4, 7, MAX_REPLICAS).unwrap();
+        assert_eq!(rep.pooled, plain);
+        // 5 batches (4 of 1024, one of 904): replica 0 holds batches 0 and 4.
+        assert_eq!(rep.replica_rays_per_bin, vec![1928, 1024, 1024, 1024]);
+        let w: Vec<f64> = rep.replica_rays_per_bin.iter().map(|&x| x as f64).collect();
+        for i in 0..bins.len() {
+            for j in 0..bins.len() {
+                let mean: f64 = rep
+                    .replicas
+                    .iter()
+                    .zip(&w)
+                    .map(|(m, w)| w * m.from_above.reflection.get(i, j))
+                    .sum::<f64>()
+                    / 5000.0;
+                let p = plain.from_above.reflection.get(i, j);
+                assert!((mean - p).abs() < 1e-14, "({i},{j}): {mean} vs {p}");
+            }
+        }
+        assert!(rep.replicas.iter().all(|m| m.std_error.is_none()));
+        // Replicas differ from each other (independent rays).
+        assert_ne!(
+            rep.replicas[0].from_above.reflection,
+            rep.replicas[1].from_above.reflection
+        );
+    }
+
     #[test]
     fn results_do_not_depend_on_thread_count_and_bad_setups_are_refused() {
         let bins = AngleBins::equal_etendue(3, 2, Symmetry::Square).unwrap();
