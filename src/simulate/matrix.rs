@@ -378,9 +378,9 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
         })];
         for i in 0..n_if {
             elements.push(StackElement::Interface(Box::new(pick(i))));
-            if i + 1 < n_if {
+            if let Some(layer) = layers.get(i).filter(|_| i + 1 < n_if) {
                 elements.push(StackElement::Thick(ThickLayer {
-                    id: layers[i].name.clone(),
+                    id: layer.name.clone(),
                     index: optics.layer_indices[i],
                     thickness_um: ctx.thickness_um[i],
                 }));
