@@ -179,7 +179,7 @@ fn matrix_mode_agrees_with_direct_mode_on_the_absorber_current() {
     let direct = small.replace("rays = 3000", "rays = 20000");
     let matrix = small.replace(
         "rays = 3000",
-        "mode = \"matrix\"\nrays = 2048\npolar_bins = 10\nazimuth_bins = 4",
+        "mode = \"matrix\"\nrays = 4096\npolar_bins = 10\nazimuth_bins = 4",
     );
     let mut j = Vec::new();
     for (name, text) in [("d", direct), ("m", matrix)] {
@@ -215,9 +215,15 @@ fn matrix_mode_agrees_with_direct_mode_on_the_absorber_current() {
             binning.unwrap_or(0.0),
         ));
     }
-    // Tolerance: 4σ of the direct run, the matrix solver's own binning error estimate, and
-    // 0.5 % for the matrix build's Monte Carlo noise, which is not propagated.
-    let tol = 4.0 * j[0].1 + j[1].2 + 0.005 * j[0].0;
+    // Tolerance: 4σ of the difference (the direct run's standard error and the matrix run's
+    // own, from its 4 replicas of the traced front) plus the matrix solver's binning error
+    // estimate. Seen when written: direct 27.082 ± 0.009, matrix 27.072 ± 0.011 (binning
+    // 0.025) mA/cm², tolerance 0.081.
+    assert!(
+        j[1].1 > 0.0,
+        "a traced front gives the matrix run a standard error"
+    );
+    let tol = 4.0 * (j[0].1.powi(2) + j[1].1.powi(2)).sqrt() + j[1].2;
     assert!(
         (j[0].0 - j[1].0).abs() < tol,
         "direct {:?} vs matrix {:?}",

@@ -102,6 +102,52 @@ pub fn textured_matrices(
     seed: u64,
     key: u64,
 ) -> Result<InterfaceMatrices, MatrixError> {
+    Ok(textured_matrices_with_replicas(surface, setup, rays_per_bin, seed, key, 0)?.pooled)
+}
+
+/// Most replicas [`textured_matrices_with_replicas`] splits a trace into in matrix mode.
+pub const MAX_REPLICAS: usize = 4;
+
+/// Replicas a trace of `rays_per_bin` rays per bin splits into: one batch of
+/// [`RAYS_PER_BATCH`] rays at least per replica, at most `max_replicas`; 0 when fewer than
+/// two would fit (no replica estimate).
+pub fn replica_count(rays_per_bin: u64, max_replicas: usize) -> usize {
+    let batches = rays_per_bin.div_ceil(RAYS_PER_BATCH);
+    let r = (max_replicas as u64).min(batches) as usize;
+    if r >= 2 { r } else { 0 }
+}
+
+/// Pooled redistribution matrices of a traced interface and the independent replicas they
+/// are made of.
+#[derive(Clone, Debug)]
+pub struct ReplicatedMatrices {
+    /// All rays: the matrices (with batch standard errors) of [`textured_matrices`].
+    pub pooled: InterfaceMatrices,
+    /// Disjoint parts of the same rays, each an independent estimate of the matrices
+    /// (without standard errors: `std_error` is `None`); empty when no replicas were asked
+    /// for or fewer than two fit.
+    pub replicas: Vec<InterfaceMatrices>,
+    /// Rays per incoming bin and side of each replica (their statistical weights).
+    pub replica_rays_per_bin: Vec<u64>,
+}
+
+/// [`textured_matrices`] together with up to `max_replicas` independent replicas.
+///
+/// The rays are exactly those of [`textured_matrices`] (same streams, same batches, and
+/// `pooled` is bitwise the same); replica r holds the batches b with b mod R = r of every
+/// column, R = [`replica_count`]`(rays_per_bin, max_replicas)`. Batches draw from disjoint
+/// random streams, so replicas are independent, and together they hold every ray once:
+/// the pooled matrices are their ray-weighted mean. A replica needs no standard error of
+/// its own (its spread against the other replicas is what a caller uses), so one batch per
+/// column is enough. Replicas are built one after another: memory is that of two tallies.
+pub fn textured_matrices_with_replicas(
+    surface: &Surface,
+    setup: InterfaceSetup,
+    rays_per_bin: u64,
+    seed: u64,
+    key: u64,
+    max_replicas: usize,
+) -> Result<ReplicatedMatrices, MatrixError> {
     // Check the set-up against the surface
     let n_layers = surface.response.n_layers();
     let same = |a: f64, b: f64| (a - b).abs() <= INDEX_TOL_REL * a.abs().max(b.abs());
@@ -184,7 +230,35 @@ pub fn textured_matrices(
         surface.polarisation,
         surface.texture.describe()
     );
-    Ok(m)
+
+    // Replicas: batch b of every column goes to replica b mod R (jobs are in (side, bin,
+    // batch) order, so `jobs[k].2` is the batch index of `batches[k]`).
+    let n_rep = replica_count(rays_per_bin, max_replicas);
+    let mut replicas = Vec::with_capacity(n_rep);
+    let mut replica_rays_per_bin = Vec::with_capacity(n_rep);
+    for r in 0..n_rep as u64 {
+        let mut part = MatrixTally::new(tally.setup().clone())?;
+        for (batch, &(_, _, b)) in batches.iter().zip(&jobs) {
+            if b % n_rep as u64 == r {
+                part.add_batch(batch)?;
+            }
+        }
+        replica_rays_per_bin.push(part.rays(Side::Above, 0));
+        let mut rep = part.finish()?;
+        rep.std_error = None;
+        rep.audit = rep.compute_audit();
+        rep.provenance = format!(
+            "replica {} of {n_rep}: batches b with b mod {n_rep} = {r}; {}",
+            r + 1,
+            m.provenance
+        );
+        replicas.push(rep);
+    }
+    Ok(ReplicatedMatrices {
+        pooled: m,
+        replicas,
+        replica_rays_per_bin,
+    })
 }
 
 /// Traces `rays` rays of column (`side`, `in_bin`) into `batch`.
@@ -315,6 +389,55 @@ mod tests {
             }
         }
         assert!(mc.audit.energy_max_abs < 1e-12, "{:?}", mc.audit);
+    }
+
+    /// Replicas partition the pooled rays: the pooled matrices are those of
+    /// `textured_matrices` bit for bit, and their ray-weighted mean is the pooled estimate
+    /// (each column is a ratio Σs/Σn over batches of equal launched weight per ray).
+    #[test]
+    fn replicas_partition_the_pooled_rays() {
+        assert_eq!(replica_count(2048, MAX_REPLICAS), 2);
+        assert_eq!(replica_count(5000, MAX_REPLICAS), 4);
+        assert_eq!(replica_count(5000, 1), 0);
+        let bins = AngleBins::equal_etendue(3, 1, Symmetry::Isotropic).unwrap();
+        let resp = BareInterface {
+            n_above: 1.0,
+            n_below: 3.5,
+        };
+        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
+        let surf = Surface {
+            texture: &tex,
+            response: &resp,
+            n_above: 1.0,
+            n_below: 3.5,
+            polarisation: PolarisationMode::Stokes,
+        };
+        let s = || setup(bins.clone(), 1.0, 3.5);
+        let plain = textured_matrices(&surf, s(), 5000, 4, 7).unwrap();
+        let rep = textured_matrices_with_replicas(&surf, s(), 5000, 4, 7, MAX_REPLICAS).unwrap();
+        assert_eq!(rep.pooled, plain);
+        // 5 batches (4 of 1024, one of 904): replica 0 holds batches 0 and 4.
+        assert_eq!(rep.replica_rays_per_bin, vec![1928, 1024, 1024, 1024]);
+        let w: Vec<f64> = rep.replica_rays_per_bin.iter().map(|&x| x as f64).collect();
+        for i in 0..bins.len() {
+            for j in 0..bins.len() {
+                let mean: f64 = rep
+                    .replicas
+                    .iter()
+                    .zip(&w)
+                    .map(|(m, w)| w * m.from_above.reflection.get(i, j))
+                    .sum::<f64>()
+                    / 5000.0;
+                let p = plain.from_above.reflection.get(i, j);
+                assert!((mean - p).abs() < 1e-14, "({i},{j}): {mean} vs {p}");
+            }
+        }
+        assert!(rep.replicas.iter().all(|m| m.std_error.is_none()));
+        // Replicas differ from each other (independent rays).
+        assert_ne!(
+            rep.replicas[0].from_above.reflection,
+            rep.replicas[1].from_above.reflection
+        );
     }
 
     #[test]

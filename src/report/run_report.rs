@@ -430,8 +430,9 @@ pub fn write_run(
     page.table("Photon budget (mA/cm²)", header, rows);
     if let Some(b) = &r.binning {
         page.paragraph(format!(
-            "Matrix mode: σ is the Monte Carlo standard error (the traced matrices' own noise is \
-             not propagated); the binning error is the solver's estimate of its angular \
+            "Matrix mode: σ is the Monte Carlo standard error, from the spread of the results \
+             solved with independent replicas of the traced interfaces' matrices (0 for \
+             planar-only stacks); the binning error is the solver's estimate of its angular \
              discretisation error: {}.",
             b.method
         ));

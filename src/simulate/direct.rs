@@ -204,6 +204,7 @@ fn one_wavelength(
         },
         limits,
         path_length_enhancement: z,
+        front_reflection_std_error: None,
         binning_error: None,
     };
     Ok((result, model.profile_edges_um()))

@@ -48,6 +48,10 @@ pub struct WavelengthResult {
     pub limits: LimitPoint,
     /// Path-length enhancement Z (see `wafer::limits::path_length_enhancement`).
     pub path_length_enhancement: Option<f64>,
+    /// Standard error of the front reflection (reflectance − escape) where it is known
+    /// directly (matrix mode: from the replicas, so the correlation of R and escape is kept);
+    /// `None`: the loss breakdown combines the errors of R and escape in quadrature.
+    pub front_reflection_std_error: Option<f64>,
     /// Matrix mode: the solver's binning error estimate of every figure above (non-negative
     /// fractions of the incident power, see `wafer::binning`); `None` in direct mode.
     pub binning_error: Option<BinningError>,
@@ -243,7 +247,9 @@ impl RunResult {
             "front reflection".into(),
             column(&|w| Estimate {
                 value: w.reflectance.value - w.escape.value,
-                std_error: (w.reflectance.std_error.powi(2) + w.escape.std_error.powi(2)).sqrt(),
+                std_error: w.front_reflection_std_error.unwrap_or_else(|| {
+                    (w.reflectance.std_error.powi(2) + w.escape.std_error.powi(2)).sqrt()
+                }),
             }),
             bin_col(&|b| b.reflectance_front),
             &mut losses,
