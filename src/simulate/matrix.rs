@@ -15,7 +15,7 @@ use crate::redistribution::traced::{
     MAX_REPLICAS, ReplicatedMatrices, textured_matrices_with_replicas,
 };
 use crate::redistribution::{AngleBins, InterfaceMatrices, InterfaceSetup, MediumInfo};
-use crate::scenario::{RayBudget, Scenario};
+use crate::scenario::Scenario;
 use crate::texture::{SurfaceKind, Symmetry, Texture};
 use crate::tracer::{Estimate, Surface};
 use crate::wafer::{
@@ -272,10 +272,7 @@ fn one_wavelength(ctx: &Context, index: usize, wl: f64) -> Result<WavelengthResu
     let optics = optics_at(scenario, wl)?;
     let solver = &scenario.solver;
     let bins = run_bins(scenario)?;
-    let rays_per_bin = match solver.rays {
-        RayBudget::Fixed(n) => n.max(2048),
-        RayBudget::Precision { .. } => 4096,
-    };
+    let rays_per_bin = solver.rays.matrix_rays_per_bin();
     let top = scenario.above.material.index_at(wl).map_err(input)?;
     let bottom = scenario.below.material.index_at(wl).map_err(input)?;
     let layers: Vec<_> = scenario.layers().collect();
