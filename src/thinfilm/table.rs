@@ -12,12 +12,12 @@
 //! y ≥ c, and on each side uses the normalised distance v = |y − c| / (length of the side)
 //! ∈ [0, 1]:
 //!
-//! * v ∈ [2^−12, 1): the 12 octaves [2^−(o+1), 2^−o) of v, each cut into cells linear in v.
-//!   An octave starts from cells of width 1/32 (or one cell, if it is narrower), so near
-//!   the kink the cells shrink with the distance to it, as √ needs: on [a, 2a] the kink term
-//!   is a smooth function of v/a.
-//! * v < 2^−12, the near zone: cells uniform in x = √(v 2^12), in which A(x²) + B(x²)·x
-//!   is analytic.
+//! * v ∈ [2^−8, 1): the 8 octaves [2^−(o+1), 2^−o) of v, each cut into cells linear in v.
+//!   An octave starts from cells of width ≤ 1/32 in cos θ_i (at most 16, at least one), so
+//!   near the kink the cells shrink with the distance to it, as √ needs: on [a, 2a] the
+//!   kink term is a smooth function of v/a.
+//! * v < 2^−8, the near zone: cells uniform in x = √(v 2^8), in which A(x²) + B(x²)·x is
+//!   analytic.
 //!
 //! Each initial cell is split into 2^k equal sub-cells until the measured error is below
 //! half the tolerance (so resonances, e.g. a surface plasmon behind a thin oxide, get fine
@@ -33,7 +33,7 @@
 //! of fraction units, so the cell is a shift of the fraction bits and t is the bits below
 //! the shift, exactly. A lookup is then a subtraction, a multiplication, two table reads and
 //! the cubic: no square root, division, float-to-integer conversion, or data-dependent
-//! branch (only the near zone, hit with probability ~2^−12 for uniform angles, takes a cold
+//! branch (only the near zone, hit with probability ~2^−8 for uniform angles, takes a cold
 //! path with one square root). The cubic runs by Estrin's scheme, (c₀ + c₁t) + t²(c₂ + c₃t),
 //! a shorter dependency chain than Horner's rule for the same operations.
 //!
@@ -66,7 +66,7 @@ const RANDOM_CHECKS: usize = 2;
 const N_FIXED: usize = 8;
 /// Octaves of the normalised distance v from the critical angle tabulated per side; below
 /// them is the near zone.
-const OCTAVES: usize = 12;
+const OCTAVES: usize = 8;
 /// Leading fraction bits of v that, with its exponent, pick a record: 16 records per octave.
 const RECORD_BITS: u32 = 4;
 const RECORDS_PER_OCTAVE: usize = 1 << RECORD_BITS;
@@ -379,9 +379,14 @@ impl AngleTable {
                 last: (n - 1) as f64,
             };
             table.push_cells(&r);
-            // The octaves of v, each from `initial` cells of width 1/32 (or one cell).
+            // The octaves of v, each from `initial` cells of width ≤ 1/32 in cos θ_i (at
+            // most one per record, at least one per octave).
             for o in 0..OCTAVES {
-                let initial_log2 = (RECORD_BITS as usize).saturating_sub(o) as u32;
+                let width = spans[side] / (2u64 << o) as f64;
+                let mut initial_log2 = 0;
+                while initial_log2 < RECORD_BITS && width > f64::from(1 << initial_log2) / 32.0 {
+                    initial_log2 += 1;
+                }
                 let initial = 1usize << initial_log2;
                 let records_per_cell = RECORDS_PER_OCTAVE >> initial_log2;
                 for j in 0..initial {
@@ -442,7 +447,9 @@ impl AngleTable {
     }
 
     /// Refine the cell [p_lo, p_lo + h] of a parameter p mapped to cos θ_i by `cos_of`,
-    /// doubling its sub-cells until the measured error bound holds.
+    /// doubling its sub-cells until the measured error bound holds. The samples of one
+    /// level and its checks at the midpoints between them are the samples of the next, so
+    /// a level costs only its checks.
     fn refine(
         &mut self,
         cos_of: impl Fn(f64) -> f64,
@@ -453,18 +460,15 @@ impl AngleTable {
     ) -> Refined {
         let n_ch = N_FIXED + 2 * self.n_layers;
         let mut rng = SplitMix(0x5EED_0000 ^ (cell_no << 8));
+        // Samples at p_lo + h k / 3, k = 0..=3 n_sub, channel-major.
+        let mut samples = Vec::with_capacity(4 * n_ch);
+        for k in 0..4 {
+            samples.extend_from_slice(direct.eval(cos_of(p_lo + h_cell * (k as f64 / 3.0))));
+        }
         let mut level = 0;
         loop {
             let n_sub = 1usize << level;
             let h = h_cell / n_sub as f64;
-            // Samples at p_lo + h k / 3, k = 0..=3 n_sub, channel-major.
-            let n_nodes = 3 * n_sub + 1;
-            let mut samples = vec![0.0; n_nodes * n_ch];
-            for k in 0..n_nodes {
-                let p = p_lo + h * (k as f64 / 3.0);
-                let v = direct.eval(cos_of(p));
-                samples[k * n_ch..(k + 1) * n_ch].copy_from_slice(v);
-            }
             // Cubic coefficients per sub-cell and channel.
             let mut coeffs = vec![[0.0; 4]; n_sub * n_ch];
             for j in 0..n_sub {
@@ -473,19 +477,24 @@ impl AngleTable {
                     coeffs[j * n_ch + ch] = cubic(y(0), y(1), y(2), y(3));
                 }
             }
-            // Measured error at the midpoints between samples and at random points.
+            // Measured error at the midpoints between samples (kept: t = (2m + 1)/6 on
+            // sub-cell j is sample 6j + 2m + 1 of the next level) and at random points.
+            let mut midpoints = Vec::with_capacity(3 * n_sub * n_ch);
             let mut err: f64 = 0.0;
             for j in 0..n_sub {
                 let mut ts = [1.0 / 6.0, 0.5, 5.0 / 6.0, 0.0, 0.0];
                 for t in ts.iter_mut().skip(3).take(RANDOM_CHECKS) {
                     *t = rng.next_unit();
                 }
-                for &t in &ts {
+                for (m, &t) in ts.iter().enumerate() {
                     let p = p_lo + h * (j as f64 + t);
                     let v = direct.eval(cos_of(p));
                     for (ch, exact) in v.iter().enumerate() {
                         let e = (horner(&coeffs[j * n_ch + ch], t) - exact).abs();
                         err = err.max(if e.is_nan() { f64::INFINITY } else { e });
+                    }
+                    if m < 3 {
+                        midpoints.extend_from_slice(v);
                     }
                 }
             }
@@ -493,6 +502,14 @@ impl AngleTable {
                 self.max_error = self.max_error.max(err);
                 return Refined { level, coeffs };
             }
+            // Interleave samples and midpoints into the next level's samples.
+            let mut next = Vec::with_capacity((6 * n_sub + 1) * n_ch);
+            for (node, mid) in samples.chunks_exact(n_ch).zip(midpoints.chunks_exact(n_ch)) {
+                next.extend_from_slice(node);
+                next.extend_from_slice(mid);
+            }
+            next.extend_from_slice(&samples[3 * n_sub * n_ch..]);
+            samples = next;
             level += 1;
         }
     }
@@ -757,7 +774,7 @@ mod tests {
     #[test]
     fn near_zone_and_both_sides_of_the_critical_angle_match_the_direct_solution() {
         // Si → ITO → air: total internal reflection with an absorbing film. Probe inside the
-        // near zone (|cos − c| < 2^−12 of the side) and in the deepest octaves.
+        // near zone (|cos − c| < 2^−8 of the side) and in the deepest octaves.
         let st = FilmStack::new(
             c(3.5, 0.0),
             vec![Layer::new(c(1.9, 0.025), 90.0)],
