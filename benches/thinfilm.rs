@@ -67,7 +67,26 @@ fn lookup(c: &mut Criterion) {
             let mut acc = 0.0;
             for &x in &cos {
                 table.lookup_full(black_box(x), &mut sample);
-                acc += sample.absorptance_s[0];
+                let s = &sample;
+                acc += s.power.reflectance_unpolarised() + s.power.transmittance_unpolarised();
+                acc += s.reflection_cross.re + s.transmission_cross.im;
+                acc += s.absorptance_total_unpolarised();
+            }
+            acc
+        })
+    });
+    // The tracer's path: straight into fixed-size arrays (as `FacetSample` holds them).
+    let table = AngleTable::build(&inside, 600.0);
+    let (mut a_s, mut a_p) = ([0.0; 12], [0.0; 12]);
+    g.bench_function("lookup_into_from_si_3layer", |b| {
+        b.iter(|| {
+            let mut acc = 0.0;
+            for &x in &cos {
+                let n = table.n_layers();
+                let (p, cross) = table.lookup_into(black_box(x), &mut a_s[..n], &mut a_p[..n]);
+                acc += p.reflectance_unpolarised() + p.transmittance_unpolarised();
+                acc += cross.reflection.re + cross.transmission.im;
+                acc += a_s[..n].iter().sum::<f64>() + a_p[..n].iter().sum::<f64>();
             }
             acc
         })

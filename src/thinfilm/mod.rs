@@ -38,4 +38,4 @@ mod stack;
 pub mod table;
 
 pub use stack::{Amplitudes, FilmError, FilmResponse, FilmStack, Layer, Side};
-pub use table::{AngleTable, FullSample, PowerCoefficients};
+pub use table::{AngleTable, CrossTerms, FullSample, PowerCoefficients};

@@ -6,7 +6,7 @@
 //! plane of incidence; r_p, t_p are in the convention of Born & Wolf (1999) §1.5.2, in which
 //! r_p = −r_s at normal incidence (the same as Byrnes' `tmm`).
 
-use crate::thinfilm::{AngleTable, FilmStack, FullSample, Layer};
+use crate::thinfilm::{AngleTable, FilmStack, Layer};
 
 /// Most film layers a coating may have on one facet (scenario validation enforces it).
 pub const MAX_FILM_LAYERS: usize = 12;
@@ -243,10 +243,6 @@ impl CoatedInterface {
     }
 }
 
-thread_local! {
-    static FULL: std::cell::RefCell<FullSample> = std::cell::RefCell::new(FullSample::default());
-}
-
 impl FacetResponse for CoatedInterface {
     fn n_layers(&self) -> usize {
         self.n_layers
@@ -254,23 +250,20 @@ impl FacetResponse for CoatedInterface {
 
     #[inline]
     fn sample(&self, side: Side, cos_theta: f64, cos_tilt: f64, out: &mut FacetSample) {
-        let table = self.table(side, cos_tilt);
-        FULL.with_borrow_mut(|full| {
-            table.lookup_full(cos_theta, full);
-            out.r_s = full.power.r_s;
-            out.r_p = full.power.r_p;
-            out.t_s = full.power.t_s;
-            out.t_p = full.power.t_p;
-            out.r_cross = (full.reflection_cross.re, full.reflection_cross.im);
-            out.t_cross = (full.transmission_cross.re, full.transmission_cross.im);
-            // Tables list layers in the order light meets them; tallies go top to bottom.
-            let n = self.n_layers;
-            for j in 0..n {
-                let k = if side == Side::Above { j } else { n - 1 - j };
-                out.a_s[k] = full.absorptance_s[j];
-                out.a_p[k] = full.absorptance_p[j];
-            }
-        });
+        let n = self.n_layers;
+        let (a_s, a_p) = (&mut out.a_s[..n], &mut out.a_p[..n]);
+        let (power, cross) = self.table(side, cos_tilt).lookup_into(cos_theta, a_s, a_p);
+        // Tables list layers in the order light meets them; tallies go top to bottom.
+        if side == Side::Below {
+            a_s.reverse();
+            a_p.reverse();
+        }
+        out.r_s = power.r_s;
+        out.r_p = power.r_p;
+        out.t_s = power.t_s;
+        out.t_p = power.t_p;
+        out.r_cross = (cross.reflection.re, cross.reflection.im);
+        out.t_cross = (cross.transmission.re, cross.transmission.im);
     }
 
     #[inline]
@@ -319,6 +312,53 @@ mod tests {
         assert!((s.r_s - 1.0).abs() < 1e-14 && (s.r_p - 1.0).abs() < 1e-14);
         assert!(((s.r_cross.0.powi(2) + s.r_cross.1.powi(2)).sqrt() - 1.0).abs() < 1e-14);
         assert_eq!(s.t_s + s.t_p, 0.0);
+    }
+
+    #[test]
+    fn coated_sample_lists_film_absorptance_top_to_bottom_from_either_side() {
+        // Two absorbing films of different k on silicon; from below the light meets them
+        // bottom first, and the sample must still list them top to bottom. Reference: the
+        // direct transfer-matrix solution (checked against `tmm` in tests/reference_tmm.rs).
+        use num_complex::Complex64;
+        let layers = vec![
+            Layer::new(Complex64::new(1.9, 0.05), 80.0),
+            Layer::new(Complex64::new(2.05, 0.002), 60.0),
+        ];
+        let stack =
+            FilmStack::new(Complex64::new(1.0, 0.0), layers, Complex64::new(3.5, 0.0)).unwrap();
+        let coated = CoatedInterface::new(&stack, 600.0, CoatingGeometry::Conformal, &[]).unwrap();
+        let mut s = FacetSample::default();
+        for (side, direct) in [
+            (Side::Above, stack.solve(600.0, 0.97)),
+            (Side::Below, stack.reversed().solve(600.0, 0.97)),
+        ] {
+            coated.sample(side, 0.97, 1.0, &mut s);
+            let order: Vec<usize> = match side {
+                Side::Above => vec![0, 1],
+                Side::Below => vec![1, 0],
+            };
+            for (top_down, light_order) in order.into_iter().enumerate() {
+                let (a_s, a_p) = (
+                    direct.s.absorptance[light_order],
+                    direct.p.absorptance[light_order],
+                );
+                assert!(
+                    (s.a_s[top_down] - a_s).abs() < 1e-5,
+                    "{side:?} layer {top_down}"
+                );
+                assert!(
+                    (s.a_p[top_down] - a_p).abs() < 1e-5,
+                    "{side:?} layer {top_down}"
+                );
+            }
+            assert!((s.r_s - direct.s.reflectance).abs() < 1e-5);
+            assert!((s.t_p - direct.p.transmittance).abs() < 1e-5);
+            let rho = direct.reflection_cross();
+            assert!((s.r_cross.0 - rho.re).abs() < 1e-5 && (s.r_cross.1 - rho.im).abs() < 1e-5);
+        }
+        // The two films absorb differently, so a swapped order would fail above.
+        let d = stack.solve(600.0, 0.97);
+        assert!((d.s.absorptance[0] - d.s.absorptance[1]).abs() > 1e-3);
     }
 
     #[test]
