@@ -47,6 +47,10 @@ pub enum FilmError {
         "layer {layer} (counted from the top, first = 1): thickness {thickness_nm} nm is not usable\n  expected: a finite thickness > 0 nm\n  fix: give the thickness in nm, or leave the layer out"
     )]
     BadThickness { layer: usize, thickness_nm: f64 },
+    #[error(
+        "a coating of {layers} film layers is more than the tracer handles\n  expected: at most {max} layers per coated interface\n  fix: merge thin layers of the same material or describe the coating with fewer layers"
+    )]
+    TooManyLayers { layers: usize, max: usize },
 }
 
 /// A coherent stack of films between two half-spaces, listed from the top (`above`) down.

@@ -182,6 +182,12 @@ impl CoatedInterface {
         cos_tilts: &[f64],
     ) -> Result<CoatedInterface, crate::thinfilm::FilmError> {
         let n_layers = stack.n_layers();
+        if n_layers > MAX_FILM_LAYERS {
+            return Err(crate::thinfilm::FilmError::TooManyLayers {
+                layers: n_layers,
+                max: MAX_FILM_LAYERS,
+            });
+        }
         let mut tilts: Vec<f64> = match geometry {
             CoatingGeometry::Conformal => vec![1.0],
             CoatingGeometry::Directional if n_layers == 0 => vec![1.0],
@@ -276,6 +282,17 @@ impl FacetResponse for CoatedInterface {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_coating_with_too_many_layers_is_an_error_not_a_panic() {
+        let layers = (0..=MAX_FILM_LAYERS)
+            .map(|_| Layer::new(num_complex::Complex64::new(1.5, 0.0), 10.0))
+            .collect();
+        let one = num_complex::Complex64::new(1.0, 0.0);
+        let stack = FilmStack::new(one, layers, num_complex::Complex64::new(3.9, 0.0)).unwrap();
+        let e = CoatedInterface::new(&stack, 600.0, CoatingGeometry::Conformal, &[]).unwrap_err();
+        assert!(e.to_string().contains("at most 12 layers"), "{e}");
+    }
 
     #[test]
     fn cos_111_tilt_matches_the_silicon_facet_angle() {
