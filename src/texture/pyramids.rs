@@ -361,6 +361,12 @@ impl RegularPyramids {
         let (y, _) = clamp_into(p.y - cy, self.period);
         let (z, active) = self.surface(x, y);
         let err = snapped_err(x, y, self.planes[active].z_err(x, y));
+        self.lab_hit(t, x, y, z, err, facet)
+    }
+
+    /// The hit at cell point (x, y, z) with error box `err`, rotated into the lab frame.
+    #[inline(always)]
+    fn lab_hit(&self, t: f64, x: f64, y: f64, z: f64, err: Vec3, facet: u32) -> Hit {
         let (point, p_err) = if self.rotated {
             let (c, s) = (self.cos_r, self.sin_r);
             let point = Vec3::new(c * x - s * y, s * x + c * y, z);
@@ -392,15 +398,7 @@ impl RegularPyramids {
         let plane = &self.planes[facet as usize];
         let z = plane.z_at(x, y);
         let err = snapped_err(x, y, plane.z_err(x, y));
-        let (point, p_err) = if self.rotated {
-            let (c, s) = (self.cos_r, self.sin_r);
-            let point = Vec3::new(c * x - s * y, s * x + c * y, z);
-            let rot_err = gamma(3) * (x.abs() + y.abs());
-            (point, Vec3::new(rot_err, rot_err, err.z))
-        } else {
-            (Vec3::new(x, y, z), err)
-        };
-        facet_hit(t, point, p_err, self.normals[facet as usize], facet)
+        self.lab_hit(t, x, y, z, err, facet)
     }
 
     /// Closed-form crossing for the common case, in the lattice frame: `Some(Some((t, i, j,
