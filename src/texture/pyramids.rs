@@ -934,10 +934,6 @@ mod tests {
                             }
                             (f, r) => panic!("spec {n}: fast {f:?} vs robust {r:?}"),
                         }
-                    } else if std::env::var("LF_DEBUG").is_ok() {
-                        eprintln!(
-                            "undecided spec {n}: o {o:?} d {d:?} skip {sk:?} robust {robust:?}"
-                        );
                     }
                     let Some(h) = robust else { break };
                     // Leave by a mirror turn or a random turn into the other side.
