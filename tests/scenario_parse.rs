@@ -86,3 +86,33 @@ fn columns_count_characters_not_bytes() {
     assert!(ps.iter().any(|p| (p.0, p.1) == (2, 1)), "{ps:#?}");
     assert!(ps.iter().any(|p| (p.0, p.1) == (6, 1)), "{ps:#?}");
 }
+
+/// A directional coating is tabulated at the texture's own facet tilts: 54.7356° {111}
+/// facets of upright pyramids round to the 0.25° level 54.75° (cos = 0.57714, `texture::
+/// coating_tilt_levels`); a conformal one at the untilted thickness only.
+#[test]
+fn interfaces_carry_the_facet_tilts_their_coating_is_tabulated_at() {
+    let text = |geometry: &str| {
+        format!(
+            "[[stack]]\nkind = \"interface\"\nname = \"front\"\ntexture = \"upright-pyramids-10um\"\n\
+             coating = [{{ material = \"sinx-n2.09-vogt2015\", thickness_nm = 75 }}]\n\
+             coating_geometry = \"{geometry}\"\n\
+             [[stack]]\nkind = \"layer\"\nname = \"wafer\"\nmaterial = \"si\"\nthickness_um = 100\n\
+             [[stack]]\nkind = \"interface\"\nname = \"rear\"\ntexture = \"planar\"\n"
+        )
+    };
+    let front = |geometry: &str| {
+        let s = Scenario::from_str(
+            &text(geometry),
+            Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("t.toml")
+                .as_path(),
+        )
+        .unwrap();
+        s.interfaces().next().unwrap().coating_tilt_cos.clone()
+    };
+    let directional = front("directional");
+    assert_eq!(directional.len(), 1, "{directional:?}");
+    assert!((directional[0] - 54.75f64.to_radians().cos()).abs() < 1e-15);
+    assert_eq!(front("conformal"), vec![1.0]);
+}

@@ -166,7 +166,10 @@ pub fn run(args: SurfaceArgs) -> Result<(), Failure> {
     let points = wavelengths.len() * angles.len();
     let bar = Bar::new(points as u64, "tracing", args.quiet || args.json);
     let mut rows = Vec::with_capacity(points);
-    let tilt_levels = texture::coating_tilt_levels(&texture.facet_tilts_deg());
+    let tilt_levels = match geometry {
+        CoatingGeometry::Conformal => vec![1.0],
+        CoatingGeometry::Directional => texture::coating_tilt_levels(&texture.facet_tilts_deg()),
+    };
     for (wi, &wl) in wavelengths.as_slice().iter().enumerate() {
         let n_above = index(&above, wl)?;
         let n_below = index(&below, wl)?;

@@ -154,6 +154,11 @@ pub struct InterfaceSpec {
     pub coating: Vec<CoatingLayer>,
     /// How film thickness varies over the facets.
     pub coating_geometry: CoatingGeometry,
+    /// Cosines of the facet tilts at which the coating is tabulated
+    /// ([`crate::texture::coating_tilt_levels`] of the texture's facet tilts for a directional
+    /// coating, `[1.0]` otherwise). Found once here: a height map has a tilt per triangle,
+    /// and the run builds the coating's tables at every wavelength.
+    pub coating_tilt_cos: Vec<f64>,
 }
 
 /// One coherent thin film.

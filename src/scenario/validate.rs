@@ -1519,13 +1519,21 @@ fn stack(ck: &mut Checker<'_>) -> Option<(Vec<Element>, usize)> {
                 let p = e.iface?;
                 let (_, label) = p.texture?;
                 let (texture, features) = oriented[i].take()?;
+                let coating_geometry = p.geometry?;
+                let coating_tilt_cos = match coating_geometry {
+                    CoatingGeometry::Conformal => vec![1.0],
+                    CoatingGeometry::Directional => {
+                        crate::texture::coating_tilt_levels(&texture.facet_tilts_deg())
+                    }
+                };
                 out.push(Element::Interface(InterfaceSpec {
                     name: e.name,
                     texture,
                     texture_label: label,
                     features,
                     coating: p.coating?,
-                    coating_geometry: p.geometry?,
+                    coating_geometry,
+                    coating_tilt_cos,
                 }));
             }
             Kind::Layer => {

@@ -5,7 +5,6 @@ use super::result::{RunResult, WavelengthResult};
 use super::{Progress, RunError};
 use crate::optics::Index;
 use crate::scenario::{RayBudget, Scenario};
-use crate::texture::coating_tilt_levels;
 use crate::thinfilm::{FilmStack, Layer};
 use crate::tracer::{
     BareInterface, CoatedInterface, FacetResponse, Incidence, Surface, ThickLayer, WaferModel,
@@ -105,7 +104,7 @@ pub(super) fn response(
         stack,
         wavelength_nm,
         spec.coating_geometry,
-        &coating_tilt_levels(&spec.texture.facet_tilts_deg()),
+        &spec.coating_tilt_cos,
     )
     .map_err(|e| RunError::Input(e.to_string()))?;
     Ok(Box::new(coated))
