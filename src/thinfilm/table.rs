@@ -728,10 +728,9 @@ mod tests {
         assert_eq!(near_v(0.0), 0.0);
     }
 
-    #[test]
-    fn cells_are_found_from_the_bits_of_v() {
-        // Every lookup lands on an existing cell with t ∈ [0, 1], and on the right one: a
-        // wrong cell would miss the direct solution by far more than the tolerance.
+    /// Si → 90 nm ITO → air at 1000 nm: total internal reflection beyond ≈ 17° with an
+    /// absorbing film.
+    fn si_ito_air() -> (FilmStack, AngleTable) {
         let st = FilmStack::new(
             c(3.5, 0.0),
             vec![Layer::new(c(1.9, 0.025), 90.0)],
@@ -739,6 +738,14 @@ mod tests {
         )
         .unwrap();
         let table = AngleTable::build(&st, 1000.0);
+        (st, table)
+    }
+
+    #[test]
+    fn cells_are_found_from_the_bits_of_v() {
+        // Every lookup lands on an existing cell with t ∈ [0, 1], and on the right one: a
+        // wrong cell would miss the direct solution by far more than the tolerance.
+        let (st, table) = si_ito_air();
         let mut rng = SplitMix(3);
         for _ in 0..20_000 {
             let cos = rng.next_unit();
@@ -775,13 +782,7 @@ mod tests {
     fn near_zone_and_both_sides_of_the_critical_angle_match_the_direct_solution() {
         // Si → ITO → air: total internal reflection with an absorbing film. Probe inside the
         // near zone (|cos − c| < 2^−8 of the side) and in the deepest octaves.
-        let st = FilmStack::new(
-            c(3.5, 0.0),
-            vec![Layer::new(c(1.9, 0.025), 90.0)],
-            c(1.0, 0.0),
-        )
-        .unwrap();
-        let table = AngleTable::build(&st, 1000.0);
+        let (st, table) = si_ito_air();
         let cc = table.critical_cos();
         let mut s = FullSample::new(1);
         for d in [-1e-3, -1e-5, -1e-7, -1e-12, 0.0, 1e-12, 1e-7, 1e-5, 1e-3] {
@@ -804,13 +805,7 @@ mod tests {
 
     #[test]
     fn lookup_into_fills_only_the_layers() {
-        let st = FilmStack::new(
-            c(3.5, 0.0),
-            vec![Layer::new(c(1.9, 0.025), 90.0)],
-            c(1.0, 0.0),
-        )
-        .unwrap();
-        let table = AngleTable::build(&st, 1000.0);
+        let (st, table) = si_ito_air();
         let (mut a_s, mut a_p) = ([-1.0; 3], [-1.0; 3]);
         let (p, _) = table.lookup_into(0.99, &mut a_s, &mut a_p);
         let direct = st.solve(1000.0, 0.99);
