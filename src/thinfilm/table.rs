@@ -171,11 +171,13 @@ impl Quad {
 }
 
 /// Where the cells of one range of records start, and their width (see [`AngleTable`]'s
-/// `locate`): cell = `start` + (fraction bits of v >> `shift`), wrapping.
+/// `locate`): cell = `start` + (fraction bits of v >> `shift`), wrapping; t = the fraction
+/// bits below the shift, moved up by `lift` = 52 − `shift` (stored to save the subtraction).
 #[derive(Debug, Clone, Copy)]
 struct Record {
     start: u32,
-    shift: u32,
+    shift: u16,
+    lift: u16,
 }
 
 impl Record {
@@ -183,6 +185,7 @@ impl Record {
     const UNUSED: Record = Record {
         start: 0,
         shift: 52,
+        lift: 0,
     };
 }
 
@@ -399,7 +402,11 @@ impl AngleTable {
                     let start = (table.fast.len() as u32).wrapping_sub((j as u32) << r.level);
                     for q in j * records_per_cell..(j + 1) * records_per_cell {
                         let slot = record_slot(side, o, q);
-                        table.records[slot] = Record { start, shift };
+                        table.records[slot] = Record {
+                            start,
+                            shift: shift as u16,
+                            lift: (52 - shift) as u16,
+                        };
                     }
                     table.push_cells(&r);
                 }
@@ -528,7 +535,8 @@ impl AngleTable {
         const ONE: u64 = 0x3FF0_0000_0000_0000;
         const BELOW_ONE: f64 = 1.0 - f64::EPSILON / 2.0;
         const KEY: u64 = (1023 << RECORD_BITS) - 1;
-        let u = cos_theta_i.clamp(0.0, 1.0) - self.cos_crit;
+        // cos θ_i > 1 needs no clamp: v > 1 there, clamped below. (NaN stays NaN.)
+        let u = if cos_theta_i < 0.0 { 0.0 } else { cos_theta_i } - self.cos_crit;
         let side = usize::from(u >= 0.0);
         let v = u.abs() * self.inv_span[side];
         // (Written so that a NaN stays NaN, and so goes to the near zone.)
@@ -542,7 +550,7 @@ impl AngleTable {
         let rec = self.records[side * OCTAVES * RECORDS_PER_OCTAVE + r];
         let fraction = bits & FRACTION;
         let k = rec.start.wrapping_add((fraction >> rec.shift) as u32);
-        let t = f64::from_bits(((fraction << (52 - rec.shift)) & FRACTION) | ONE) - 1.0;
+        let t = f64::from_bits(((fraction << rec.lift) & FRACTION) | ONE) - 1.0;
         (k as usize, t)
     }
 
@@ -558,7 +566,7 @@ impl AngleTable {
 
     /// R_s, R_p, T_s, T_p at incidence cosine `cos_theta_i` ∈ [0, 1] (clamped), within
     /// [`Self::max_error`] of the direct solution.
-    #[inline]
+    #[inline(always)]
     pub fn lookup(&self, cos_theta_i: f64) -> PowerCoefficients {
         let (k, t) = self.locate(cos_theta_i);
         self.fast_at(k, t)
