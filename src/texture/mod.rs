@@ -91,8 +91,9 @@ pub enum Symmetry {
     None,
 }
 
-/// A periodic textured surface.
-pub trait Texture: Send + Sync + std::fmt::Debug {
+/// A periodic textured surface. (`Any` lets the tracer pick a loop compiled for the
+/// concrete type of the common textures, see `tracer::Surface::follow`.)
+pub trait Texture: std::any::Any + Send + Sync + std::fmt::Debug {
     /// How the tracer treats this surface.
     fn kind(&self) -> SurfaceKind {
         SurfaceKind::Geometric

@@ -21,7 +21,7 @@ use super::{
     snapped_err,
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
-use crate::geometry::grid::GridWalk;
+use crate::geometry::grid::{GridCell, GridWalk};
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
 use crate::texture::{PROBE_REL, on_plane_tol};
 
@@ -99,6 +99,8 @@ pub struct RegularPyramids {
     margin: f64,
     /// Largest coordinate below the period (the last point of the unit cell), µm.
     period_below: f64,
+    /// 1 / period, 1/µm.
+    inv_period: f64,
 }
 
 /// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
@@ -225,6 +227,7 @@ impl RegularPyramids {
             tan: tan_a,
             margin: FAST_MARGIN_REL * (spec.period_um + height),
             period_below: spec.period_um.next_down(),
+            inv_period: 1.0 / spec.period_um,
         })
     }
 
@@ -455,10 +458,57 @@ impl RegularPyramids {
         } else {
             Lean::new(rg, f64::INFINITY, FLAT_FACET, FLAT_FACET)
         };
-        let mut walk = GridWalk::new(o, d, self.period, t_start, t_end, MAX_CELLS_PER_QUERY);
-        for cell in walk.by_ref() {
-            let dx = (o.x - cell.i as f64 * self.period) - self.centre;
-            let dy = (o.y - cell.j as f64 * self.period) - self.centre;
+        // The cells along the ray: the walk of `GridWalk` (same cells, same boundary values
+        // bit for bit, each computed from its integer index), written out for this loop.
+        let p = self.period;
+        let start = o + t_start * d;
+        let (mut ci, mut cj) = (
+            floor_i64(start.x * self.inv_period),
+            floor_i64(start.y * self.inv_period),
+        );
+        let (step_i, step_j) = (
+            if d.x > 0.0 { 1 } else { -1 },
+            if d.y > 0.0 { 1 } else { -1 },
+        );
+        let (up_i, up_j) = (i64::from(d.x > 0.0), i64::from(d.y > 0.0));
+        let (inv_dx, inv_dy) = (1.0 / d.x, 1.0 / d.y);
+        let boundary = |k: i64, o: f64, inv: f64, dv: f64| {
+            if dv == 0.0 {
+                f64::INFINITY
+            } else {
+                (k as f64 * p - o) * inv
+            }
+        };
+        let mut next_i = boundary(ci + up_i, o.x, inv_dx, d.x);
+        let mut next_j = boundary(cj + up_j, o.y, inv_dy, d.y);
+        let mut t0 = t_start;
+        let mut left = MAX_CELLS_PER_QUERY;
+        loop {
+            if left == 0 {
+                return None; // too many cells: the robust walk reports it
+            }
+            left -= 1;
+            let t_next = next_i.min(next_j);
+            let last = t_next >= t_end;
+            let t1 = if last { t_end } else { t_next }.max(t0);
+            let cell = GridCell {
+                i: ci,
+                j: cj,
+                t0,
+                t1,
+            };
+            if !last {
+                if next_i <= next_j {
+                    ci += step_i;
+                    next_i = boundary(ci + up_i, o.x, inv_dx, d.x);
+                } else {
+                    cj += step_j;
+                    next_j = boundary(cj + up_j, o.y, inv_dy, d.y);
+                }
+                t0 = t1;
+            }
+            let dx = (o.x - cell.i as f64 * p) - self.centre;
+            let dy = (o.y - cell.j as f64 * p) - self.centre;
             let (u, v) = (tan * dx, tan * dy);
             let (q, u, v) = if inv {
                 (o.z + self.height, -u, -v)
@@ -523,13 +573,18 @@ impl RegularPyramids {
             } else {
                 [ground, cone]
             };
-            let (t0, t1) = (cell.t0, cell.t1);
+            let (c0, c1) = (cell.t0, cell.t1);
             let crossing = if above {
-                lean_entry(&spans, t0, t1, m, &e, pinned)?
+                lean_entry(&spans, c0, c1, m, &e, pinned)?
             } else {
-                lean_exit(&spans, t0, t1, m, &e, pinned)?
+                lean_exit(&spans, c0, c1, m, &e, pinned)?
             };
-            let Some((t, tag)) = crossing else { continue };
+            let Some((t, tag)) = crossing else {
+                if last {
+                    return Some(None);
+                }
+                continue;
+            };
             // Away from every other plane's root: not at an edge, valley, foot or rim.
             for (k, &rk) in r.iter().enumerate() {
                 if k as u32 != tag && (rk - t).abs() <= m {
@@ -538,10 +593,6 @@ impl RegularPyramids {
             }
             return Some(Some((t, cell.i, cell.j, tag)));
         }
-        if walk.exhausted() {
-            return None;
-        }
-        Some(None)
     }
 
     /// The robust walk (see the module docs of [`crate::texture`]): decides every case the

@@ -42,7 +42,8 @@ pub struct FacetSample {
 }
 
 /// A coated interface as the tracer sees it (implemented over `thinfilm` angle tables).
-pub trait FacetResponse: Sync {
+/// (`Any` as for [`crate::texture::Texture`].)
+pub trait FacetResponse: std::any::Any + Sync {
     /// Number of film layers (0 for a bare interface); at most [`MAX_FILM_LAYERS`].
     fn n_layers(&self) -> usize;
     /// Fills `out` for light arriving from `side` at `cos_theta` (in (0, 1]) on a facet whose

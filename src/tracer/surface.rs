@@ -9,13 +9,14 @@
 //! Invariant: for every ray, reflected + transmitted + Σ film + abandoned = its initial weight.
 
 use super::polarisation::{self, Polarised};
-use super::response::{FacetResponse, FacetSample, Side, other};
+use super::response::{BareInterface, CoatedInterface, FacetResponse, FacetSample, Side, other};
 use super::tally::{HIT_BINS, Tally, polar_bin};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Vec3, orthonormal_basis};
 use crate::sampling::Stream;
-use crate::texture::{SurfaceKind, Texture};
+use crate::texture::{RandomPyramids, RegularPyramids, SurfaceKind, Texture};
 use rayon::prelude::*;
+use std::any::Any;
 
 /// Rays per work chunk: fixed, never derived from the thread count.
 pub const RAYS_PER_CHUNK: u64 = 4096;
@@ -152,8 +153,56 @@ impl<'a> Surface<'a> {
     /// Film absorption is added to `film` (per layer), bulk absorption inside the slab goes
     /// to `bulk`; returns the outcome and the number of facet events. Works in the texture's
     /// unit-cell frame.
+    ///
+    /// The loop is compiled for the concrete texture and response types of the common cases
+    /// (regular and random pyramids; bare and coated facets), so that their intersection and
+    /// facet response are inlined into it; other combinations go through the trait objects.
     pub fn follow<B: BulkSink>(
         &self,
+        ray: &mut Ray,
+        side: Side,
+        rng: &mut Stream,
+        film: &mut [f64],
+        sample: &mut FacetSample,
+        bulk: &mut B,
+    ) -> (Outcome, u32) {
+        let texture: &dyn Any = self.texture;
+        let response: &dyn Any = self.response;
+        macro_rules! with_response {
+            ($tex:expr) => {
+                if let Some(r) = response.downcast_ref::<BareInterface>() {
+                    self.follow_in($tex, r, ray, side, rng, film, sample, bulk)
+                } else if let Some(r) = response.downcast_ref::<CoatedInterface>() {
+                    self.follow_in($tex, r, ray, side, rng, film, sample, bulk)
+                } else {
+                    self.follow_in($tex, self.response, ray, side, rng, film, sample, bulk)
+                }
+            };
+        }
+        if let Some(t) = texture.downcast_ref::<RegularPyramids>() {
+            with_response!(t)
+        } else if let Some(t) = texture.downcast_ref::<RandomPyramids>() {
+            with_response!(t)
+        } else {
+            self.follow_in(
+                self.texture,
+                self.response,
+                ray,
+                side,
+                rng,
+                film,
+                sample,
+                bulk,
+            )
+        }
+    }
+
+    /// [`Self::follow`] with `texture` and `response` (the surface's own) of known types.
+    #[allow(clippy::too_many_arguments)]
+    fn follow_in<T: Texture + ?Sized, R: FacetResponse + ?Sized, B: BulkSink>(
+        &self,
+        texture: &T,
+        response: &R,
         ray: &mut Ray,
         mut side: Side,
         rng: &mut Stream,
@@ -161,15 +210,15 @@ impl<'a> Surface<'a> {
         sample: &mut FacetSample,
         bulk: &mut B,
     ) -> (Outcome, u32) {
-        let kind = self.texture.kind();
-        let n_layers = self.response.n_layers();
-        let [z_lo, z_hi] = self.texture.z_range_um();
+        let kind = texture.kind();
+        let n_layers = response.n_layers();
+        let [z_lo, z_hi] = texture.z_range_um();
         let mut events = 0u32;
         loop {
             if ray.pol.s[0] == 0.0 {
                 return (Outcome::Extinguished, events);
             }
-            let Some(hit) = self.texture.intersect(ray.origin, ray.dir, ray.skip) else {
+            let Some(hit) = texture.intersect(ray.origin, ray.dir, ray.skip) else {
                 // Left the slab: must be travelling away from the surface on its own side.
                 let ok = match side {
                     Side::Above => ray.dir.z > 0.0,
@@ -217,10 +266,10 @@ impl<'a> Surface<'a> {
             let (c_r, c_t, reflect) = match self.polarisation {
                 PolarisationMode::Unpolarised => {
                     let (r, t) = if n_layers == 0 {
-                        let [rs, rp, ts, tp] = self.response.power(side, cos_i, cos_tilt);
+                        let [rs, rp, ts, tp] = response.power(side, cos_i, cos_tilt);
                         (0.5 * (rs + rp), 0.5 * (ts + tp))
                     } else {
-                        self.response.sample(side, cos_i, cos_tilt, sample);
+                        response.sample(side, cos_i, cos_tilt, sample);
                         let pairs = sample.a_s.iter().zip(&sample.a_p);
                         for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
                             *f += w * 0.5 * (a_s + a_p);
@@ -239,7 +288,7 @@ impl<'a> Surface<'a> {
                     let s_hat = polarisation::s_axis(k, n, ray.pol.e1);
                     let s = polarisation::rotate_into(ray.pol.s, ray.pol.e1, k, s_hat);
                     // The full sample even for bare facets: Stokes tracking needs the cross terms.
-                    self.response.sample(side, cos_i, cos_tilt, sample);
+                    response.sample(side, cos_i, cos_tilt, sample);
                     let pairs = sample.a_s.iter().zip(&sample.a_p);
                     for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
                         *f += polarisation::power(&s, *a_s, *a_p);
