@@ -46,6 +46,20 @@ pub const fn gamma(n: u32) -> f64 {
     nu / (1.0 - nu)
 }
 
+/// The lesser of `a` and `b` in one instruction (`minsd`); `f64::min`, which also orders
+/// NaN, takes about seven. For hot paths whose operands are never NaN (if `a` is NaN, `b`
+/// is returned).
+#[inline(always)]
+pub fn lesser(a: f64, b: f64) -> f64 {
+    if a < b { a } else { b }
+}
+
+/// The greater of `a` and `b` in one instruction (`maxsd`), as [`lesser`].
+#[inline(always)]
+pub fn greater(a: f64, b: f64) -> f64 {
+    if a > b { a } else { b }
+}
+
 /// ⌊x⌋ as an integer, without a libm call (exact for |x| < 2⁶³; NaN gives 0).
 #[inline(always)]
 pub fn floor_i64(x: f64) -> i64 {

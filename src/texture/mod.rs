@@ -57,7 +57,7 @@ pub use pyramids::{RegularPyramids, RegularPyramidsSpec};
 pub use random::{Pyramid, RandomPyramids, RandomPyramidsSpec, SizeDistribution, SizeOf};
 
 use crate::geometry::crossing::{Entry, Span, first_in_union, first_outside_union};
-use crate::geometry::{FacetId, Hit, Vec3, gamma};
+use crate::geometry::{FacetId, Hit, Vec3, gamma, greater, lesser};
 
 /// Most lattice cells one `intersect` call visits inside the slab before giving up (`None`).
 pub const MAX_CELLS_PER_QUERY: usize = 1 << 16;
@@ -196,7 +196,7 @@ pub(crate) fn slab_interval(oz: f64, dz: f64, z_lo: f64, z_hi: f64) -> Option<(f
     }
     let inv = 1.0 / dz;
     let (ta, tb) = ((z_lo - oz) * inv, (z_hi - oz) * inv);
-    let (t0, t1) = (ta.min(tb).max(0.0), ta.max(tb));
+    let (t0, t1) = (greater(lesser(ta, tb), 0.0), greater(ta, tb));
     (t0 <= t1).then_some((t0, t1))
 }
 

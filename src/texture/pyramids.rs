@@ -22,7 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::{GridCell, GridWalk};
-use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
 
 /// Id of the flat base plane.
@@ -488,9 +488,9 @@ impl RegularPyramids {
                 return None; // too many cells: the robust walk reports it
             }
             left -= 1;
-            let t_next = next_i.min(next_j);
+            let t_next = lesser(next_i, next_j);
             let last = t_next >= t_end;
-            let t1 = if last { t_end } else { t_next }.max(t0);
+            let t1 = greater(if last { t_end } else { t_next }, t0);
             let cell = GridCell {
                 i: ci,
                 j: cj,
@@ -551,7 +551,7 @@ impl RegularPyramids {
                     [ground, Lean::EMPTY]
                 } else {
                     [
-                        Lean::new(ground.s, ground.e.min(cone.s), FLAT_FACET, {
+                        Lean::new(ground.s, lesser(ground.e, cone.s), FLAT_FACET, {
                             if cone.s < ground.e {
                                 cone.ts
                             } else {
@@ -559,7 +559,7 @@ impl RegularPyramids {
                             }
                         }),
                         Lean::new(
-                            ground.s.max(cone.e),
+                            greater(ground.s, cone.e),
                             ground.e,
                             if cone.e > ground.s {
                                 cone.te
@@ -764,7 +764,7 @@ fn lean_entry(
     if b.s >= t1 - m {
         return None;
     }
-    let depth = rate(e, b.ts).min(rate(e, b.te)) * (b.e.min(t1) - b.s);
+    let depth = lesser(rate(e, b.ts), rate(e, b.te)) * (lesser(b.e, t1) - b.s);
     (depth > m).then_some(Some((b.s, b.ts)))
 }
 
@@ -819,7 +819,7 @@ fn lean_exit(
             back = (sp.s, rate(e, sp.ts));
         }
     }
-    let depth = rate(e, tag).min(back.1) * (back.0 - x);
+    let depth = lesser(rate(e, tag), back.1) * (back.0 - x);
     (depth > m).then_some(Some((x, tag)))
 }
 

@@ -12,7 +12,7 @@ use super::polarisation::{self, Polarised};
 use super::response::{BareInterface, CoatedInterface, FacetResponse, FacetSample, Side, other};
 use super::tally::{HIT_BINS, Tally, polar_bin};
 use crate::geometry::robust::offset_origin;
-use crate::geometry::{FacetId, Vec3, orthonormal_basis};
+use crate::geometry::{FacetId, Vec3, lesser, orthonormal_basis};
 use crate::sampling::Stream;
 use crate::texture::{RandomPyramids, RegularPyramids, SurfaceKind, Texture};
 use rayon::prelude::*;
@@ -258,7 +258,7 @@ impl<'a> Surface<'a> {
             if !consistent {
                 return (Outcome::Abandoned { lost: true }, events);
             }
-            let cos_i = k_dot_n.abs().min(1.0);
+            let cos_i = lesser(k_dot_n.abs(), 1.0);
             let cos_tilt = n.z;
             let w = ray.pol.s[0];
 
