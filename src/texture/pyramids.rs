@@ -101,6 +101,8 @@ pub struct RegularPyramids {
     period_below: f64,
     /// 1 / period, 1/µm.
     inv_period: f64,
+    /// Upright pyramids touching their neighbours (no flat ground between them).
+    touching: bool,
 }
 
 /// Checks a facet angle in degrees: finite and strictly between 0° and 90°.
@@ -228,6 +230,7 @@ impl RegularPyramids {
             margin: FAST_MARGIN_REL * (spec.period_um + height),
             period_below: spec.period_um.next_down(),
             inv_period: 1.0 / spec.period_um,
+            touching: !spec.inverted && spec.base_um == spec.period_um,
         })
     }
 
@@ -402,6 +405,161 @@ impl RegularPyramids {
         let z = plane.z_at(x, y);
         let err = snapped_err(x, y, plane.z_err(x, y));
         self.lab_hit(t, x, y, z, err, facet)
+    }
+
+    /// Upright pyramids: the three commonest queries answered from one pyramid's cone (the
+    /// set below its four face planes), by convexity, with neither cell walk nor span lists.
+    /// Every cone lies below the ground plane outside its own base (height ≤ tan α·period/2),
+    /// so the set below the surface is the ground half-space united with all the cones, and
+    /// a point of a cone above the ground lies over its own base:
+    /// * a ray leaving a face downward (into the pyramid) stays inside the cone until the
+    ///   first face plane it leaves; it crosses the surface there if that is above the
+    ///   ground, and otherwise never again (below the ground it is below the surface for
+    ///   good);
+    /// * a ray from above the slab enters the surface where it enters the cone of the cell it
+    ///   starts over, if that entry is above the ground (it cannot have left that cell's
+    ///   square before: the square is convex);
+    /// * on touching pyramids, a ray leaving a face upward cannot meet its own (convex)
+    ///   pyramid again nor the ground, so it leaves the slab if it rises out of it before
+    ///   the cell's edge, and otherwise enters the neighbour's cone if that entry is above
+    ///   the ground.
+    ///
+    /// Same answers and margins as [`Self::fast_crossing`] (every decision clear by
+    /// `self.margin`); `None` for anything else, which the cell walk then decides.
+    #[inline(always)]
+    fn convex_crossing(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        z_lo: f64,
+        z_hi: f64,
+    ) -> Option<Option<(f64, i64, i64, u32)>> {
+        const NONE: u32 = u32::MAX;
+        if self.spec.inverted {
+            return None;
+        }
+        let (tan, m, p) = (self.tan, self.margin, self.period);
+        let (sx, sy) = (tan * d.x, tan * d.y);
+        let e = [d.z + sx, d.z - sx, d.z + sy, d.z - sy];
+        if d.z == 0.0 || e.contains(&0.0) {
+            return None;
+        }
+        let ie = e.map(|v| 1.0 / v);
+        let iz = 1.0 / d.z;
+        // Where the ray meets the ground plane z = 0.
+        let rg = -o.z * iz;
+        let rate = |k: u32| e.get(k as usize).map_or(f64::INFINITY, |v| v.abs());
+        // Roots of the face planes of the pyramid in cell (i, j), face `pin` at t = 0.
+        let roots = |i: i64, j: i64, pin: Option<u32>| {
+            let u = tan * ((o.x - i as f64 * p) - self.centre);
+            let v = tan * ((o.y - j as f64 * p) - self.centre);
+            let q = o.z - self.height;
+            let mut r = [
+                -(q + u) * ie[0],
+                -(q - u) * ie[1],
+                -(q + v) * ie[2],
+                -(q - v) * ie[3],
+            ];
+            if let Some(k) = pin {
+                r[k as usize] = 0.0;
+            }
+            r
+        };
+        // Clear of every other face plane's root and of the ground's.
+        let clear = |r: &[f64; 4], t: f64, tag: u32| {
+            (rg - t).abs() > m && (0..4).all(|k| k as u32 == tag || (r[k] - t).abs() > m)
+        };
+        // A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside
+        // for a depth over the margin, above the ground: the crossing.
+        let entry = |r: &[f64; 4], from: f64| {
+            let (mut s, mut ts, mut end, mut te) = (f64::NEG_INFINITY, NONE, f64::INFINITY, NONE);
+            for (k, &rk) in r.iter().enumerate() {
+                if e[k] < 0.0 {
+                    if rk > s {
+                        (s, ts) = (rk, k as u32);
+                    }
+                } else if rk < end {
+                    (end, te) = (rk, k as u32);
+                }
+            }
+            let deep = lesser(rate(ts), rate(te)) * (end - s) > m;
+            let above_ground = o.z + d.z * s > m;
+            (s > from + m && deep && above_ground && clear(r, s, ts)).then_some((s, ts))
+        };
+        match skip {
+            None if o.z > z_hi && d.z < 0.0 => {
+                let (i, j) = (
+                    floor_i64(o.x * self.inv_period),
+                    floor_i64(o.y * self.inv_period),
+                );
+                let (s, ts) = entry(&roots(i, j, None), 0.0)?;
+                Some(Some((s, i, j, ts)))
+            }
+            Some(k) if k < FLAT_FACET && z_lo <= o.z && o.z <= z_hi && e[k as usize] < 0.0 => {
+                // Into the pyramid: inside every other face plane already, above the ground.
+                let r = roots(0, 0, Some(k));
+                let (mut x, mut tag) = (f64::INFINITY, NONE);
+                for (j, &rj) in r.iter().enumerate() {
+                    if j as u32 == k {
+                        continue;
+                    }
+                    if e[j] < 0.0 {
+                        if !(rj < -m) {
+                            return None;
+                        }
+                    } else {
+                        if !(rj > m) {
+                            return None;
+                        }
+                        if rj < x {
+                            (x, tag) = (rj, j as u32);
+                        }
+                    }
+                }
+                if d.z < 0.0 {
+                    if !(rg > m) {
+                        return None;
+                    }
+                    if x > rg + m {
+                        return Some(None); // below the ground first, and for good
+                    }
+                } else if !(rg < -m) {
+                    return None;
+                }
+                (x.is_finite() && clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
+            }
+            Some(k) if k < FLAT_FACET && self.touching && z_lo <= o.z && o.z <= z_hi => {
+                // Out of the pyramid (e_k > 0): to the first edge of the cell.
+                let (tx, ty) = (
+                    if d.x > 0.0 {
+                        (p - o.x) / d.x
+                    } else {
+                        -o.x / d.x
+                    },
+                    if d.y > 0.0 {
+                        (p - o.y) / d.y
+                    } else {
+                        -o.y / d.y
+                    },
+                );
+                let edge = lesser(tx, ty);
+                if d.z > 0.0 && (z_hi - o.z) * iz < edge - m {
+                    return Some(None); // out of the slab first
+                }
+                if !(edge > m) || (tx - ty).abs() <= m || !(o.z + d.z * edge > m) {
+                    return None; // at a corner, or low at the edge (a valley)
+                }
+                let (i, j) = if tx < ty {
+                    (if d.x > 0.0 { 1 } else { -1 }, 0)
+                } else {
+                    (0, if d.y > 0.0 { 1 } else { -1 })
+                };
+                let (s, ts) = entry(&roots(i, j, None), edge)?;
+                Some(Some((s, i, j, ts)))
+            }
+            _ => None,
+        }
     }
 
     /// Closed-form crossing for the common case, in the lattice frame: `Some(Some((t, i, j,
@@ -849,8 +1007,12 @@ impl Texture for RegularPyramids {
         let d = self.to_lattice(dir);
         let [z_min, z_max] = self.z_range_um();
         let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
-        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let skip = skip.map(|f| f.0).filter(|&k| k <= FLAT_FACET);
+        // (The queries it answers all meet the slab.)
+        if let Some(decided) = self.convex_crossing(o, d, skip, z_lo, z_hi) {
+            return decided.map(|(t, i, j, facet)| self.fast_hit_at(o, d, t, i, j, facet));
+        }
+        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         match self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi) {
             Some(Some((t, i, j, facet))) => Some(self.fast_hit_at(o, d, t, i, j, facet)),
             Some(None) => None,
@@ -952,7 +1114,7 @@ mod tests {
             let mut rng = Stream::new(11, n as u64, 0);
             let [z_min, z_max] = tex.z_range_um();
             let (z_lo, z_hi) = (z_min - tex.pad, z_max + tex.pad);
-            let (mut decided, mut total) = (0usize, 0usize);
+            let (mut decided, mut total, mut convex) = (0usize, 0usize, 0usize);
             for _ in 0..4000 {
                 let from_above = rng.uniform() < 0.5;
                 let mut dir = rng.cosine_hemisphere();
@@ -973,6 +1135,20 @@ mod tests {
                     let sk = skip.map(|f: FacetId| f.0);
                     let robust = tex.robust_crossing(o, d, sk, t_start, t_end, z_lo, z_hi);
                     total += 1;
+                    if let Some(quick) = tex.convex_crossing(o, d, sk, z_lo, z_hi) {
+                        convex += 1;
+                        let quick = quick.map(|(t, i, j, k)| tex.fast_hit_at(o, d, t, i, j, k));
+                        match (quick, robust) {
+                            (None, None) => {}
+                            (Some(f), Some(r)) => {
+                                assert_eq!(f.facet, r.facet, "spec {n}, convex");
+                                let close = (f.t - r.t).abs() <= 1e-12 * (1.0 + r.t);
+                                assert!(close, "spec {n}, convex");
+                                assert!((f.point - r.point).length() < 1e-9, "spec {n}");
+                            }
+                            (f, r) => panic!("spec {n}: convex {f:?} vs robust {r:?}"),
+                        }
+                    }
                     if let Some(fast) = tex.fast_crossing(o, d, sk, t_start, t_end, z_lo, z_hi) {
                         decided += 1;
                         let fast = fast.map(|(t, i, j, k)| tex.fast_hit_at(o, d, t, i, j, k));
@@ -1010,6 +1186,16 @@ mod tests {
                 decided as f64 > 0.9999 * total as f64,
                 "spec {n}: fast path decided only {decided} of {total}"
             );
+            // The cone shortcut must carry a real share on upright pyramids (all three
+            // query kinds on touching ones; rays from above and into the pyramid otherwise).
+            if !spec.inverted {
+                eprintln!("spec {n}: convex shortcut decided {convex} of {total}");
+                let share = if tex.touching { 2 } else { 5 };
+                assert!(
+                    convex * share > total,
+                    "spec {n}: convex decided {convex} of {total}"
+                );
+            }
         }
     }
 
