@@ -505,11 +505,11 @@ impl RegularPyramids {
                         continue;
                     }
                     if e[j] < 0.0 {
-                        if !(rj < -m) {
+                        if !exceeds(-m, rj) {
                             return None;
                         }
                     } else {
-                        if !(rj > m) {
+                        if !exceeds(rj, m) {
                             return None;
                         }
                         if rj < x {
@@ -518,13 +518,13 @@ impl RegularPyramids {
                     }
                 }
                 if d.z < 0.0 {
-                    if !(rg > m) {
+                    if !exceeds(rg, m) {
                         return None;
                     }
                     if x > rg + m {
                         return Some(None); // below the ground first, and for good
                     }
-                } else if !(rg < -m) {
+                } else if !exceeds(-m, rg) {
                     return None;
                 }
                 (x.is_finite() && clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
@@ -547,7 +547,7 @@ impl RegularPyramids {
                 if d.z > 0.0 && (z_hi - o.z) * iz < edge - m {
                     return Some(None); // out of the slab first
                 }
-                if !(edge > m) || (tx - ty).abs() <= m || !(o.z + d.z * edge > m) {
+                if !exceeds(edge, m) || (tx - ty).abs() <= m || !exceeds(o.z + d.z * edge, m) {
                     return None; // at a corner, or low at the edge (a valley)
                 }
                 let (i, j) = if tx < ty {
@@ -882,6 +882,12 @@ impl Lean {
     fn is_empty(&self) -> bool {
         self.s >= self.e
     }
+}
+
+/// a > b, false if either is NaN: the convex shortcut declines on anything not clearly so.
+#[inline(always)]
+fn exceeds(a: f64, b: f64) -> bool {
+    a > b
 }
 
 /// |dG/dt| of plane `tag` (∞ for an unbounded end).
