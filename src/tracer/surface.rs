@@ -350,11 +350,13 @@ impl<'a> Surface<'a> {
             if !reflect {
                 side = other(side);
             }
-            // Keep the reference axis perpendicular to the new direction (Stokes only: an
-            // unpolarised ray needs none).
-            if self.polarisation == PolarisationMode::Stokes {
-                ray.pol.e1 = (ray.pol.e1 - ray.pol.e1.dot(new_dir) * new_dir)
-                    .normalize_or(orthonormal_basis(new_dir).0);
+            // The reference axis, now ŝ, is already perpendicular to a reflected or refracted
+            // direction (both lie in the plane of incidence, and ŝ is normal to it); a
+            // randomised ray (unpolarised) gets any axis perpendicular to its direction.
+            // (Stokes only: an unpolarised ray needs none.)
+            if self.polarisation == PolarisationMode::Stokes && kind == SurfaceKind::IdealLambertian
+            {
+                ray.pol.e1 = orthonormal_basis(new_dir).0;
             }
             ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
             ray.dir = new_dir;
