@@ -57,6 +57,7 @@ pub use pyramids::{RegularPyramids, RegularPyramidsSpec};
 pub use random::{Pyramid, RandomPyramids, RandomPyramidsSpec, SizeDistribution, SizeOf};
 
 use crate::geometry::crossing::{Entry, Span, first_in_union, first_outside_union};
+use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, gamma, greater, lesser};
 
 /// Most lattice cells one `intersect` call visits inside the slab before giving up (`None`).
@@ -117,6 +118,16 @@ pub trait Texture: std::any::Any + Send + Sync + std::fmt::Debug {
     /// starts on. The hit point is wrapped into the unit cell and its facet id is valid there.
     /// A crossing counts only if t exceeds its rounding-error bound. No allocation.
     fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit>;
+    /// First crossing of a ray leaving the surface at `from` (a hit this texture returned)
+    /// along `dir`, reflected or refracted there; t is measured from `from.point`. Default:
+    /// [`Self::intersect`] from just off the facet, on `dir`'s side
+    /// ([`crate::geometry::robust::offset_origin`]), with the facet as `skip`. A texture
+    /// whose fast path treats the facet left as exactly at t = 0 may start from the hit
+    /// point itself.
+    fn intersect_after(&self, from: &Hit, dir: Vec3) -> Option<Hit> {
+        let origin = offset_origin(from.point, from.p_err, from.normal, dir);
+        self.intersect(origin, dir, Some(from.facet))
+    }
     /// Tilts of the surface's facets from the base plane, degrees (0 for flat parts), each
     /// listed once: coatings deposited by line of sight are thinner on tilted facets
     /// (see [`coating_tilt_levels`]). Default: flat only.

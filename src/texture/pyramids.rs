@@ -22,6 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::{GridCell, GridWalk};
+use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
 
@@ -1006,6 +1007,20 @@ impl Texture for RegularPyramids {
         } else {
             [0.0, self.height]
         }
+    }
+
+    /// From the hit point itself when the cone shortcut decides (it pins the facet left at
+    /// t = 0); otherwise as the default, from the offset origin.
+    fn intersect_after(&self, from: &Hit, dir: Vec3) -> Option<Hit> {
+        let (o, d) = (self.to_lattice(from.point), self.to_lattice(dir));
+        let [z_min, z_max] = self.z_range_um();
+        let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
+        let skip = Some(from.facet.0).filter(|&k| k <= FLAT_FACET);
+        if let Some(decided) = self.convex_crossing(o, d, skip, z_lo, z_hi) {
+            return decided.map(|(t, i, j, facet)| self.fast_hit_at(o, d, t, i, j, facet));
+        }
+        let origin = offset_origin(from.point, from.p_err, from.normal, dir);
+        self.intersect(origin, dir, Some(from.facet))
     }
 
     fn intersect(&self, origin: Vec3, dir: Vec3, skip: Option<FacetId>) -> Option<Hit> {

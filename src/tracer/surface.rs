@@ -11,8 +11,7 @@
 use super::polarisation::{self, Polarised};
 use super::response::{BareInterface, CoatedInterface, FacetResponse, FacetSample, Side, other};
 use super::tally::{HIT_BINS, Tally, polar_bin};
-use crate::geometry::robust::offset_origin;
-use crate::geometry::{FacetId, Vec3, lesser, orthonormal_basis};
+use crate::geometry::{FacetId, Hit, Vec3, lesser, orthonormal_basis};
 use crate::sampling::Stream;
 use crate::texture::{RandomPyramids, RegularPyramids, SurfaceKind, Texture};
 use rayon::prelude::*;
@@ -214,11 +213,17 @@ impl<'a> Surface<'a> {
         let n_layers = response.n_layers();
         let [z_lo, z_hi] = texture.z_range_um();
         let mut events = 0u32;
+        // The facet event the ray left last (its start point is that hit's point).
+        let mut last: Option<Hit> = None;
         loop {
             if ray.pol.s[0] == 0.0 {
                 return (Outcome::Extinguished, events);
             }
-            let Some(hit) = texture.intersect(ray.origin, ray.dir, ray.skip) else {
+            let next = match &last {
+                Some(from) => texture.intersect_after(from, ray.dir),
+                None => texture.intersect(ray.origin, ray.dir, ray.skip),
+            };
+            let Some(hit) = next else {
                 // Left the slab: must be travelling away from the surface on its own side.
                 let ok = match side {
                     Side::Above => ray.dir.z > 0.0,
@@ -358,9 +363,10 @@ impl<'a> Surface<'a> {
             {
                 ray.pol.e1 = orthonormal_basis(new_dir).0;
             }
-            ray.origin = offset_origin(hit.point, hit.p_err, n, new_dir);
+            ray.origin = hit.point;
             ray.dir = new_dir;
             ray.skip = Some(hit.facet);
+            last = Some(hit);
         }
     }
 
