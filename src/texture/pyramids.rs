@@ -473,7 +473,8 @@ impl RegularPyramids {
         };
         // A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside
         // for a depth over the margin, above the ground: the crossing.
-        let entry = |r: &[f64; 4], from: f64| {
+        // The cone's span (s, end) along the ray and the faces bounding it.
+        let cone = |r: &[f64; 4]| {
             let (mut s, mut ts, mut end, mut te) = (f64::NEG_INFINITY, NONE, f64::INFINITY, NONE);
             for (k, &rk) in r.iter().enumerate() {
                 if e[k] < 0.0 {
@@ -484,6 +485,12 @@ impl RegularPyramids {
                     (end, te) = (rk, k as u32);
                 }
             }
+            (s, ts, end, te)
+        };
+        // A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside
+        // for a depth over the margin, above the ground: the crossing.
+        let entry = |r: &[f64; 4], from: f64| {
+            let (s, ts, end, te) = cone(r);
             let deep = lesser(rate(ts), rate(te)) * (end - s) > m;
             let above_ground = o.z + d.z * s > m;
             (s > from + m && deep && above_ground && clear(r, s, ts)).then_some((s, ts))
@@ -531,33 +538,49 @@ impl RegularPyramids {
                 (x.is_finite() && clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
             }
             Some(k) if k < FLAT_FACET && self.touching && z_lo <= o.z && o.z <= z_hi => {
-                // Out of the pyramid (e_k > 0): to the first edge of the cell.
-                let (tx, ty) = (
-                    if d.x > 0.0 {
-                        (p - o.x) / d.x
-                    } else {
-                        -o.x / d.x
-                    },
-                    if d.y > 0.0 {
-                        (p - o.y) / d.y
-                    } else {
-                        -o.y / d.y
-                    },
-                );
-                let edge = lesser(tx, ty);
-                if d.z > 0.0 && (z_hi - o.z) * iz < edge - m {
-                    return Some(None); // out of the slab first
-                }
-                if !exceeds(edge, m) || (tx - ty).abs() <= m || !exceeds(o.z + d.z * edge, m) {
-                    return None; // at a corner, or low at the edge (a valley)
-                }
-                let (i, j) = if tx < ty {
-                    (if d.x > 0.0 { 1 } else { -1 }, 0)
+                // Out of the pyramid (e_k > 0): from cell to cell (its own cone is behind
+                // it, and no ground is exposed between touching pyramids), while it passes
+                // clearly over the edges and clearly misses the cones; a few cells at most.
+                let t_top = if d.z > 0.0 {
+                    (z_hi - o.z) * iz
                 } else {
-                    (0, if d.y > 0.0 { 1 } else { -1 })
+                    f64::INFINITY
                 };
-                let (s, ts) = entry(&roots(i, j, None), edge)?;
-                Some(Some((s, i, j, ts)))
+                let to_edge = |c: i64, x: f64, dx: f64| {
+                    if dx > 0.0 {
+                        ((c + 1) as f64 * p - x) / dx
+                    } else if dx < 0.0 {
+                        (c as f64 * p - x) / dx
+                    } else {
+                        f64::INFINITY
+                    }
+                };
+                let (mut i, mut j) = (0i64, 0i64);
+                for _ in 0..4 {
+                    let (tx, ty) = (to_edge(i, o.x, d.x), to_edge(j, o.y, d.y));
+                    let edge = lesser(tx, ty);
+                    if t_top < edge - m {
+                        return Some(None); // out of the slab first
+                    }
+                    if !exceeds(edge, m) || (tx - ty).abs() <= m || !exceeds(o.z + d.z * edge, m) {
+                        return None; // at a corner, or low at the edge (a valley)
+                    }
+                    if tx < ty {
+                        i += if d.x > 0.0 { 1 } else { -1 };
+                    } else {
+                        j += if d.y > 0.0 { 1 } else { -1 };
+                    }
+                    let r = roots(i, j, None);
+                    let (s, _, end, _) = cone(&r);
+                    if s < end - m {
+                        let (s, ts) = entry(&r, edge)?;
+                        return Some(Some((s, i, j, ts)));
+                    }
+                    if !exceeds(s, end + m) {
+                        return None; // grazing the cone
+                    }
+                }
+                None
             }
             _ => None,
         }
@@ -1136,7 +1159,7 @@ mod tests {
             let [z_min, z_max] = tex.z_range_um();
             let (z_lo, z_hi) = (z_min - tex.pad, z_max + tex.pad);
             let (mut decided, mut total, mut convex) = (0usize, 0usize, 0usize);
-            for _ in 0..4000 {
+            for _ in 0..20_000 {
                 let from_above = rng.uniform() < 0.5;
                 let mut dir = rng.cosine_hemisphere();
                 let mut origin = Vec3::new(
@@ -1146,8 +1169,14 @@ mod tests {
                 );
                 if from_above {
                     dir.z = -dir.z;
+                    // A quarter of them at normal incidence (axis-aligned turns follow).
+                    if rng.uniform() < 0.25 {
+                        dir = Vec3::NEG_Z;
+                    }
                 }
                 let mut skip = None;
+                // The hit the ray leaves, for the query from the hit point itself.
+                let mut exact: Option<Vec3> = None;
                 for _ in 0..6 {
                     let (o, d) = (tex.to_lattice(origin), tex.to_lattice(dir));
                     let Some((t_start, t_end)) = slab_interval(o.z, d.z, z_lo, z_hi) else {
@@ -1156,9 +1185,13 @@ mod tests {
                     let sk = skip.map(|f: FacetId| f.0);
                     let robust = tex.robust_crossing(o, d, sk, t_start, t_end, z_lo, z_hi);
                     total += 1;
-                    if let Some(quick) = tex.convex_crossing(o, d, sk, z_lo, z_hi) {
-                        convex += 1;
-                        let quick = quick.map(|(t, i, j, k)| tex.fast_hit_at(o, d, t, i, j, k));
+                    let from_point = exact.map_or(o, |p| tex.to_lattice(p));
+                    for (start, count) in [(o, true), (from_point, false)] {
+                        let Some(quick) = tex.convex_crossing(start, d, sk, z_lo, z_hi) else {
+                            continue;
+                        };
+                        convex += usize::from(count);
+                        let quick = quick.map(|(t, i, j, k)| tex.fast_hit_at(start, d, t, i, j, k));
                         match (quick, robust) {
                             (None, None) => {}
                             (Some(f), Some(r)) => {
@@ -1184,10 +1217,18 @@ mod tests {
                         }
                     }
                     let Some(h) = robust else { break };
-                    // Leave by a mirror turn or a random turn into the other side.
+                    // Leave by a mirror turn, a refraction (n = 3.94 below) or a random turn
+                    // into the other side.
                     let k_dot_n = dir.dot(h.normal);
-                    let new_dir = if rng.uniform() < 0.5 {
+                    let turn = rng.uniform();
+                    let (cos_i, eta) =
+                        (k_dot_n.abs(), if k_dot_n < 0.0 { 1.0 / 3.94 } else { 3.94 });
+                    let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
+                    let new_dir = if turn < 0.4 || (turn < 0.7 && sin2_t >= 1.0) {
                         dir - 2.0 * k_dot_n * h.normal
+                    } else if turn < 0.7 {
+                        let facing = if k_dot_n < 0.0 { h.normal } else { -h.normal };
+                        (eta * dir + (eta * cos_i - (1.0 - sin2_t).sqrt()) * facing).normalize()
                     } else {
                         let mut l = rng.cosine_hemisphere();
                         if k_dot_n > 0.0 {
@@ -1199,6 +1240,7 @@ mod tests {
                         break;
                     }
                     origin = offset_origin(h.point, h.p_err, h.normal, new_dir);
+                    exact = Some(h.point);
                     dir = new_dir;
                     skip = Some(h.facet);
                 }
