@@ -436,7 +436,6 @@ impl RegularPyramids {
         z_lo: f64,
         z_hi: f64,
     ) -> Option<Option<(f64, i64, i64, u32)>> {
-        const NONE: u32 = u32::MAX;
         if self.spec.inverted {
             return None;
         }
@@ -446,68 +445,30 @@ impl RegularPyramids {
         if d.z == 0.0 || e.contains(&0.0) {
             return None;
         }
-        let ie = e.map(|v| 1.0 / v);
         let iz = 1.0 / d.z;
-        // Where the ray meets the ground plane z = 0.
-        let rg = -o.z * iz;
-        let rate = |k: u32| e.get(k as usize).map_or(f64::INFINITY, |v| v.abs());
-        // Roots of the face planes of the pyramid in cell (i, j), face `pin` at t = 0.
-        let roots = |i: i64, j: i64, pin: Option<u32>| {
-            let u = tan * ((o.x - i as f64 * p) - self.centre);
-            let v = tan * ((o.y - j as f64 * p) - self.centre);
-            let q = o.z - self.height;
-            let mut r = [
-                -(q + u) * ie[0],
-                -(q - u) * ie[1],
-                -(q + v) * ie[2],
-                -(q - v) * ie[3],
-            ];
-            if let Some(k) = pin {
-                r[k as usize] = 0.0;
-            }
-            r
+        let ray = ConeRay {
+            o,
+            d,
+            e,
+            ie: e.map(|v| 1.0 / v),
+            rg: -o.z * iz,
+            m,
         };
-        // Clear of every other face plane's root and of the ground's.
-        let clear = |r: &[f64; 4], t: f64, tag: u32| {
-            (rg - t).abs() > m && (0..4).all(|k| k as u32 == tag || (r[k] - t).abs() > m)
-        };
-        // A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside
-        // for a depth over the margin, above the ground: the crossing.
-        // The cone's span (s, end) along the ray and the faces bounding it.
-        let cone = |r: &[f64; 4]| {
-            let (mut s, mut ts, mut end, mut te) = (f64::NEG_INFINITY, NONE, f64::INFINITY, NONE);
-            for (k, &rk) in r.iter().enumerate() {
-                if e[k] < 0.0 {
-                    if rk > s {
-                        (s, ts) = (rk, k as u32);
-                    }
-                } else if rk < end {
-                    (end, te) = (rk, k as u32);
-                }
-            }
-            (s, ts, end, te)
-        };
-        // A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside
-        // for a depth over the margin, above the ground: the crossing.
-        let entry = |r: &[f64; 4], from: f64| {
-            let (s, ts, end, te) = cone(r);
-            let deep = lesser(rate(ts), rate(te)) * (end - s) > m;
-            let above_ground = o.z + d.z * s > m;
-            (s > from + m && deep && above_ground && clear(r, s, ts)).then_some((s, ts))
-        };
+        let rg = ray.rg;
         match skip {
             None if o.z > z_hi && d.z < 0.0 => {
                 let (i, j) = (
                     floor_i64(o.x * self.inv_period),
                     floor_i64(o.y * self.inv_period),
                 );
-                let (s, ts) = entry(&roots(i, j, None), 0.0)?;
+                let (s, ts) = ray.entry(&ray.roots(self, i, j), 0.0)?;
                 Some(Some((s, i, j, ts)))
             }
             Some(k) if k < FLAT_FACET && z_lo <= o.z && o.z <= z_hi && e[k as usize] < 0.0 => {
                 // Into the pyramid: inside every other face plane already, above the ground.
-                let r = roots(0, 0, Some(k));
-                let (mut x, mut tag) = (f64::INFINITY, NONE);
+                let mut r = ray.roots(self, 0, 0);
+                r[k as usize] = 0.0;
+                let (mut x, mut tag) = (f64::INFINITY, u32::MAX);
                 for (j, &rj) in r.iter().enumerate() {
                     if j as u32 == k {
                         continue;
@@ -535,7 +496,7 @@ impl RegularPyramids {
                 } else if !exceeds(-m, rg) {
                     return None;
                 }
-                (x.is_finite() && clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
+                (x.is_finite() && ray.clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
             }
             Some(k) if k < FLAT_FACET && self.touching && z_lo <= o.z && o.z <= z_hi => {
                 // Out of the pyramid (e_k > 0): from cell to cell (its own cone is behind
@@ -570,10 +531,10 @@ impl RegularPyramids {
                     } else {
                         j += if d.y > 0.0 { 1 } else { -1 };
                     }
-                    let r = roots(i, j, None);
-                    let (s, _, end, _) = cone(&r);
+                    let r = ray.roots(self, i, j);
+                    let (s, _, end, _) = ray.cone(&r);
                     if s < end - m {
-                        let (s, ts) = entry(&r, edge)?;
+                        let (s, ts) = ray.entry(&r, edge)?;
                         return Some(Some((s, i, j, ts)));
                     }
                     if !exceeds(s, end + m) {
@@ -905,6 +866,80 @@ impl Lean {
     #[inline(always)]
     fn is_empty(&self) -> bool {
         self.s >= self.e
+    }
+}
+
+/// One query of [`RegularPyramids::convex_crossing`]: the ray, its face-plane rates e_k
+/// (dG/dt of the four faces' gaps G = c + e·t, negative going below the plane) and their
+/// inverses, where it meets the ground plane, and the margin.
+struct ConeRay {
+    o: Vec3,
+    d: Vec3,
+    e: [f64; 4],
+    ie: [f64; 4],
+    rg: f64,
+    m: f64,
+}
+
+impl ConeRay {
+    /// |dG/dt| of face `k` (∞ for no face).
+    #[inline(always)]
+    fn rate(&self, k: u32) -> f64 {
+        if k < 4 {
+            self.e[k as usize].abs()
+        } else {
+            f64::INFINITY
+        }
+    }
+
+    /// Roots of the face planes of the pyramid in lattice cell (i, j).
+    #[inline(always)]
+    fn roots(&self, tex: &RegularPyramids, i: i64, j: i64) -> [f64; 4] {
+        let (o, ie) = (self.o, &self.ie);
+        let u = tex.tan * ((o.x - i as f64 * tex.period) - tex.centre);
+        let v = tex.tan * ((o.y - j as f64 * tex.period) - tex.centre);
+        let q = o.z - tex.height;
+        [
+            -(q + u) * ie[0],
+            -(q - u) * ie[1],
+            -(q + v) * ie[2],
+            -(q - v) * ie[3],
+        ]
+    }
+
+    /// The cone's span (s, end) along the ray and the faces bounding it (u32::MAX: none).
+    #[inline(always)]
+    fn cone(&self, r: &[f64; 4]) -> (f64, u32, f64, u32) {
+        let (mut s, mut ts, mut end, mut te) =
+            (f64::NEG_INFINITY, u32::MAX, f64::INFINITY, u32::MAX);
+        for (k, &rk) in r.iter().enumerate() {
+            if self.e[k] < 0.0 {
+                if rk > s {
+                    (s, ts) = (rk, k as u32);
+                }
+            } else if rk < end {
+                (end, te) = (rk, k as u32);
+            }
+        }
+        (s, ts, end, te)
+    }
+
+    /// `t` is clear of every other face plane's root and of the ground's.
+    #[inline(always)]
+    fn clear(&self, r: &[f64; 4], t: f64, tag: u32) -> bool {
+        let m = self.m;
+        (self.rg - t).abs() > m && (0..4).all(|k| k as u32 == tag || (r[k] - t).abs() > m)
+    }
+
+    /// A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside for
+    /// a depth over the margin, above the ground: the crossing.
+    #[inline(always)]
+    fn entry(&self, r: &[f64; 4], from: f64) -> Option<(f64, u32)> {
+        let m = self.m;
+        let (s, ts, end, te) = self.cone(r);
+        let deep = lesser(self.rate(ts), self.rate(te)) * (end - s) > m;
+        let above_ground = self.o.z + self.d.z * s > m;
+        (s > from + m && deep && above_ground && self.clear(r, s, ts)).then_some((s, ts))
     }
 }
 
