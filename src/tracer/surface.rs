@@ -154,8 +154,7 @@ impl<'a> Surface<'a> {
     /// unit-cell frame.
     ///
     /// The loop is compiled for the concrete texture and response types of the common cases
-    /// (regular and random pyramids; bare and coated facets), so that their intersection and
-    /// facet response are inlined into it; other combinations go through the trait objects.
+    /// (see `typed`).
     pub fn follow<B: BulkSink>(
         &self,
         ray: &mut Ray,
@@ -165,16 +164,57 @@ impl<'a> Surface<'a> {
         sample: &mut FacetSample,
         bulk: &mut B,
     ) -> (Outcome, u32) {
+        struct Follow<'r, B> {
+            ray: &'r mut Ray,
+            side: Side,
+            rng: &'r mut Stream,
+            film: &'r mut [f64],
+            sample: &'r mut FacetSample,
+            bulk: &'r mut B,
+        }
+        impl<B: BulkSink> Typed for Follow<'_, B> {
+            type Out = (Outcome, u32);
+            fn run<T: Texture + ?Sized, R: FacetResponse + ?Sized>(
+                self,
+                surface: &Surface,
+                texture: &T,
+                response: &R,
+            ) -> Self::Out {
+                let Follow {
+                    ray,
+                    side,
+                    rng,
+                    film,
+                    sample,
+                    bulk,
+                } = self;
+                surface.follow_in(texture, response, ray, side, rng, film, sample, bulk)
+            }
+        }
+        self.typed(Follow {
+            ray,
+            side,
+            rng,
+            film,
+            sample,
+            bulk,
+        })
+    }
+
+    /// Runs `job` with the texture and response as their concrete types for the common
+    /// cases (regular and random pyramids; bare and coated facets), so that intersection
+    /// and facet response are inlined into its loop, and as trait objects otherwise.
+    fn typed<J: Typed>(&self, job: J) -> J::Out {
         let texture: &dyn Any = self.texture;
         let response: &dyn Any = self.response;
         macro_rules! with_response {
             ($tex:expr) => {
                 if let Some(r) = response.downcast_ref::<BareInterface>() {
-                    self.follow_in($tex, r, ray, side, rng, film, sample, bulk)
+                    job.run(self, $tex, r)
                 } else if let Some(r) = response.downcast_ref::<CoatedInterface>() {
-                    self.follow_in($tex, r, ray, side, rng, film, sample, bulk)
+                    job.run(self, $tex, r)
                 } else {
-                    self.follow_in($tex, self.response, ray, side, rng, film, sample, bulk)
+                    job.run(self, $tex, self.response)
                 }
             };
         }
@@ -183,16 +223,7 @@ impl<'a> Surface<'a> {
         } else if let Some(t) = texture.downcast_ref::<RandomPyramids>() {
             with_response!(t)
         } else {
-            self.follow_in(
-                self.texture,
-                self.response,
-                ray,
-                side,
-                rng,
-                film,
-                sample,
-                bulk,
-            )
+            job.run(self, self.texture, self.response)
         }
     }
 
@@ -445,9 +476,43 @@ impl<'a> Surface<'a> {
         rays: u64,
         rng: &mut Stream,
     ) -> (Tally, O) {
+        struct Chunk<'r, O> {
+            incidence: &'r Incidence,
+            rays: u64,
+            rng: &'r mut Stream,
+            observer: std::marker::PhantomData<O>,
+        }
+        impl<O: ExitObserver> Typed for Chunk<'_, O> {
+            type Out = (Tally, O);
+            fn run<T: Texture + ?Sized, R: FacetResponse + ?Sized>(
+                self,
+                surface: &Surface,
+                texture: &T,
+                response: &R,
+            ) -> Self::Out {
+                surface.trace_chunk_in(texture, response, self.incidence, self.rays, self.rng)
+            }
+        }
+        self.typed(Chunk {
+            incidence,
+            rays,
+            rng,
+            observer: std::marker::PhantomData,
+        })
+    }
+
+    /// [`Self::trace_chunk`] with `texture` and `response` (the surface's own) of known types.
+    fn trace_chunk_in<T: Texture + ?Sized, R: FacetResponse + ?Sized, O: ExitObserver>(
+        &self,
+        texture: &T,
+        response: &R,
+        incidence: &Incidence,
+        rays: u64,
+        rng: &mut Stream,
+    ) -> (Tally, O) {
         let mut tally = Tally::default();
         let mut obs = O::default();
-        let n_layers = self.response.n_layers();
+        let n_layers = response.n_layers();
         let mut film = [0.0; super::response::MAX_FILM_LAYERS];
         let mut sample = FacetSample::default();
         let side_in = incidence.side();
@@ -456,8 +521,16 @@ impl<'a> Surface<'a> {
             let mut ray = launcher.ray(rng);
             let start = ray.dir;
             film[..n_layers].iter_mut().for_each(|a| *a = 0.0);
-            let (outcome, events) =
-                self.follow(&mut ray, side_in, rng, &mut film, &mut sample, &mut Clear);
+            let (outcome, events) = self.follow_in(
+                texture,
+                response,
+                &mut ray,
+                side_in,
+                rng,
+                &mut film,
+                &mut sample,
+                &mut Clear,
+            );
             tally.rays += 1;
             tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
             for (m, f) in tally.film.iter_mut().zip(&film[..n_layers]) {
@@ -575,6 +648,17 @@ impl<'a> Surface<'a> {
             next = need.clamp(done + 1, max_chunks);
         }
     }
+}
+
+/// A job run with a surface's texture and response as concrete types (see `Surface::typed`).
+trait Typed {
+    type Out;
+    fn run<T: Texture + ?Sized, R: FacetResponse + ?Sized>(
+        self,
+        surface: &Surface,
+        texture: &T,
+        response: &R,
+    ) -> Self::Out;
 }
 
 /// `s` rescaled so that its intensity is `w`.
