@@ -469,22 +469,22 @@ impl RegularPyramids {
                 let mut r = ray.roots(self, 0, 0);
                 r[k as usize] = 0.0;
                 let (mut x, mut tag) = (f64::INFINITY, u32::MAX);
+                let mut unclear = false;
                 for (j, &rj) in r.iter().enumerate() {
                     if j as u32 == k {
                         continue;
                     }
                     if e[j] < 0.0 {
-                        if !exceeds(-m, rj) {
-                            return None;
-                        }
+                        unclear |= !exceeds(-m, rj);
                     } else {
-                        if !exceeds(rj, m) {
-                            return None;
-                        }
+                        unclear |= !exceeds(rj, m);
                         if rj < x {
                             (x, tag) = (rj, j as u32);
                         }
                     }
+                }
+                if unclear {
+                    return None;
                 }
                 if d.z < 0.0 {
                     if !exceeds(rg, m) {
@@ -928,7 +928,12 @@ impl ConeRay {
     #[inline(always)]
     fn clear(&self, r: &[f64; 4], t: f64, tag: u32) -> bool {
         let m = self.m;
-        (self.rg - t).abs() > m && (0..4).all(|k| k as u32 == tag || (r[k] - t).abs() > m)
+        // (Without short-circuits: a few compares beat the branches.)
+        let mut ok = (self.rg - t).abs() > m;
+        for (k, rk) in r.iter().enumerate() {
+            ok &= k as u32 == tag || (rk - t).abs() > m;
+        }
+        ok
     }
 
     /// A ray outside the cone at `from` enters it at `s` (face `ts`) and stays inside for
