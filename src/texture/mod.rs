@@ -29,9 +29,9 @@
 //! valley, tip or cell corner lands exactly once (net); the facet named for a crossing always
 //! faces the ray the right way (`crossed_facet`).
 //!
-//! For the tracer: start each new ray at
-//! `offset_origin(hit.point, hit.p_err, hit.normal, dir)`
-//! ([`crate::geometry::robust::offset_origin`]) and pass `Some(hit.facet)` as `skip`.
+//! For the tracer: continue a ray from a hit with [`Texture::intersect_after`], which by
+//! default starts it at `offset_origin(hit.point, hit.p_err, hit.normal, dir)`
+//! ([`crate::geometry::robust::offset_origin`]) with `Some(hit.facet)` as `skip`.
 //!
 //! Limits: a ray that would cross more than [`MAX_CELLS_PER_QUERY`] cells inside the slab
 //! (|dir.z| ≲ 10⁻⁵ over a textured surface) returns `None` although it is still inside the
