@@ -29,7 +29,7 @@ pub struct WavelengthResult {
     pub transmittance: Estimate,
     /// Absorptance of each thick layer, top to bottom.
     pub layers: Vec<Estimate>,
-    /// Absorptance of each film of each interface ([interface][film], top to bottom).
+    /// Absorptance of each film of each interface (`[interface][film]`, top to bottom).
     pub films: Vec<Vec<Estimate>>,
     /// Power in abandoned rays (numerical loss or event limit); should be 0.
     pub abandoned: f64,

@@ -38,7 +38,7 @@
 //! a shorter dependency chain than Horner's rule for the same operations.
 //!
 //! Per cell, the coefficients of the four power channels (R_s, R_p, T_s, T_p) are one
-//! 128-byte record, 64-byte aligned (two cache lines), laid out [power][channel] so that
+//! 128-byte record, 64-byte aligned (two cache lines), laid out `[power][channel]` so that
 //! the cubic runs across the channels in SIMD pairs. The full lookup reads two more
 //! arrays, same index: the four cross-term channels in the same form, and per layer the
 //! absorptance coefficients interleaved s, p (64 bytes), one SIMD pair per layer.

@@ -77,7 +77,7 @@ pub struct WaferTally {
     pub transmitted: Moments,
     /// Absorbed in each thick layer.
     pub layers: Vec<Moments>,
-    /// Absorbed in each film layer of each interface ([interface][layer]).
+    /// Absorbed in each film layer of each interface (`[interface][layer]`).
     pub films: Vec<[Moments; MAX_FILM_LAYERS]>,
     /// Power of rays given up (numerics or the event limit).
     pub abandoned: Moments,
