@@ -25,7 +25,11 @@
 //! cell the below-surface set along the ray is the union of the ground half-line and one
 //! interval per listed pyramid (Cyrus–Beck clipping against its four planes), and the first
 //! change of side is the crossing (see [`crate::geometry::crossing`]). This works from above
-//! and from below.
+//! and from below. A lean fast path (`RandomPyramids::fast_crossing`) answers nearly every
+//! query with the same numbers as that walk, at a fraction of its cost, and hands the rest
+//! (origins on the surface without a facet to leave, shallow excursions, crossings at cell
+//! walls) to it; a ray leaving a facet down into its pyramid that meets the base plane clearly
+//! inside it is known to stay below the surface without a walk.
 //!
 //! Facet ids (valid in the tile frame): 0 the base plane; 1 + 4·k + f for face f (0: +x side,
 //! 1: −x, 2: +y, 3: −y) of pyramid image k. Invariant: every image whose footprint meets the
@@ -37,8 +41,8 @@ use super::{
     clamp_into, facet_hit, side_at_origin, side_outside_slab, slab_interval, snapped_err,
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
-use crate::geometry::grid::GridWalk;
-use crate::geometry::{FacetId, Hit, Vec3, floor_i64};
+use crate::geometry::grid::{GridCell, GridWalk};
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
 use crate::sampling::Stream;
 use crate::texture::pyramids::{check_angle, check_length};
 
@@ -53,6 +57,15 @@ const MAX_PER_CELL: usize = 24;
 
 /// Grid cell side as a fraction of the mean base (a few pyramids per cell).
 const CELL_PER_MEAN_BASE: f64 = 0.35;
+
+/// Most spans (the base plane and pyramids) the fast path holds for one cell seen from below;
+/// a cell with more goes to the robust walk.
+const FAST_SPANS: usize = 8;
+
+/// Margin of the fast path's geometric shortcuts relative to tile side + highest apex: a
+/// shortcut is taken only if the ray is that much clear of deciding differently (rounding
+/// errors are ~10⁻¹⁵ of it). Kept below `PAD_REL`, as in [`crate::texture::pyramids`].
+const FAST_MARGIN_REL: f64 = 1e-10;
 
 /// Relative padding of slabs and pruning bounds, relative to tile side + highest apex.
 const PAD_REL: f64 = 1e-9;
@@ -141,7 +154,7 @@ struct Image {
 
 impl Image {
     /// Height of the pyramid's cone at (x, y) and the face that gives it.
-    #[inline]
+    #[inline(always)]
     fn cone_at(&self, x: f64, y: f64) -> (f64, u32) {
         let mut best = (f64::INFINITY, 0);
         for (k, p) in self.planes.iter().enumerate() {
@@ -189,6 +202,21 @@ struct Item {
     image: u32,
     /// Highest point of the image's cone over the cell, µm.
     top: f64,
+    /// The image's centre, apex height and facet slope (copies, for the fast path).
+    cx: f64,
+    cy: f64,
+    height: f64,
+    tan_a: f64,
+    /// Heights at the tile origin of its four face planes (`HeightPlane::w`).
+    w: [f64; 4],
+}
+
+/// A grid cell's list of items, and bounds of the surface height over the cell from below and
+/// above.
+#[derive(Clone, Debug)]
+struct CellList {
+    items: Box<[Item]>,
+    z: [f64; 2],
 }
 
 /// Random upright pyramids on a periodic tile (see the module doc).
@@ -200,16 +228,18 @@ pub struct RandomPyramids {
     images: Vec<Image>,
     grid_n: i64,
     cell: f64,
-    cell_start: Vec<u32>,
-    items: Vec<Item>,
-    /// Lower and upper bound of the surface height over each cell.
-    cell_z: Vec<[f64; 2]>,
+    /// Each cell's items and bounds of the surface height over it.
+    cells: Vec<CellList>,
     z_max: f64,
     pad: f64,
     /// On-plane tolerance floor (see [`Gap::new`]), µm.
     tol: f64,
     /// Excursion depth tolerance (see [`super::cell_entry`]), µm.
     depth: f64,
+    /// Largest coordinate below the tile side (hit points are clamped into [0, L)).
+    tile_below: f64,
+    /// Margin of the fast path's geometric shortcuts, µm (see [`FAST_MARGIN_REL`]).
+    fast_margin: f64,
     /// Steepest facet slope (tan α).
     max_tan: f64,
     /// The facet slope tan α shared by all pyramids, if there is no angle spread.
@@ -382,13 +412,13 @@ impl RandomPyramids {
             images: Vec::new(),
             grid_n: 1,
             cell: tile,
-            cell_start: Vec::new(),
-            items: Vec::new(),
-            cell_z: Vec::new(),
+            cells: Vec::new(),
             z_max: 0.0,
             pad: 0.0,
             tol: 0.0,
             depth: 0.0,
+            tile_below: tile.next_down(),
+            fast_margin: 0.0,
             max_tan: 0.0,
             common_tan: None,
             coverage: 0.0,
@@ -396,6 +426,7 @@ impl RandomPyramids {
         tex.build_images();
         tex.z_max = tex.images.iter().map(|im| im.height).fold(0.0, f64::max);
         tex.pad = PAD_REL * (tile + tex.z_max);
+        tex.fast_margin = FAST_MARGIN_REL * (tile + tex.z_max);
         tex.max_tan = tex.images.iter().map(|im| im.tan_a).fold(0.0, f64::max);
         let first_tan = tex.images.first().map(|im| im.tan_a);
         tex.common_tan = first_tan.filter(|&t| tex.images.iter().all(|im| im.tan_a == t));
@@ -529,14 +560,17 @@ impl RandomPyramids {
                         lists[(j * n + i) as usize].push(Item {
                             image: k as u32,
                             top,
+                            cx: im.cx,
+                            cy: im.cy,
+                            height: im.height,
+                            tan_a: im.tan_a,
+                            w: im.planes.map(|p| p.w),
                         });
                     }
                 }
             }
         }
-        let mut cell_start = Vec::with_capacity(lists.len() + 1);
-        let mut items = Vec::new();
-        let mut cell_z = Vec::with_capacity(lists.len());
+        let mut cells = Vec::with_capacity(lists.len());
         for (idx, list) in lists.iter_mut().enumerate() {
             let (i, j) = (idx as i64 % n, idx as i64 / n);
             let (x0, x1) = (i as f64 * cell - margin, (i + 1) as f64 * cell + margin);
@@ -553,16 +587,14 @@ impl RandomPyramids {
                 return false;
             }
             let top = list.first().map_or(0.0, |it| it.top.max(0.0));
-            cell_start.push(items.len() as u32);
-            items.extend_from_slice(list);
-            cell_z.push([floor, top]);
+            cells.push(CellList {
+                items: list.as_slice().into(),
+                z: [floor, top],
+            });
         }
-        cell_start.push(items.len() as u32);
         self.grid_n = n;
         self.cell = cell;
-        self.cell_start = cell_start;
-        self.items = items;
-        self.cell_z = cell_z;
+        self.cells = cells;
         true
     }
 
@@ -642,14 +674,10 @@ impl RandomPyramids {
         (self.cell, self.grid_n as usize)
     }
 
-    #[inline]
+    #[inline(always)]
     fn cell_items(&self, li: i64, lj: i64) -> (&[Item], [f64; 2]) {
-        let idx = (lj * self.grid_n + li) as usize;
-        let (a, b) = (
-            self.cell_start[idx] as usize,
-            self.cell_start[idx + 1] as usize,
-        );
-        (&self.items[a..b], self.cell_z[idx])
+        let c = &self.cells[(lj * self.grid_n + li) as usize];
+        (&c.items, c.z)
     }
 
     /// Height of the surface and the facet under the tile point (x, y) (any x, y: wrapped).
@@ -742,63 +770,660 @@ impl RandomPyramids {
             .and(g[2].below(tag + 2))
             .and(g[3].below(tag + 3))
     }
-}
 
-/// Face slopes along a ray, shared by every pyramid with the common facet angle (set up once
-/// per ray).
-struct FaceSlopes {
-    d: Vec3,
-    common: Option<SquareFaces>,
-}
-
-impl FaceSlopes {
-    fn new(d: Vec3, common_tan: Option<f64>) -> FaceSlopes {
-        FaceSlopes {
-            d,
-            common: common_tan.map(|t| SquareFaces::new(t, d, false)),
-        }
-    }
-}
-
-/// Tile index and cell within the tile of grid cell `g` (n cells per tile): the Euclidean
-/// quotient and remainder, without an integer division for the tile and its neighbours
-/// (where nearly every ray is).
-#[inline(always)]
-fn tile_and_cell(g: i64, n: i64) -> (i64, i64) {
-    if (0..n).contains(&g) {
-        (0, g)
-    } else if (n..2 * n).contains(&g) {
-        (1, g - n)
-    } else if (-n..0).contains(&g) {
-        (-1, g + n)
-    } else {
-        (g.div_euclid(n), g.rem_euclid(n))
-    }
-}
-
-/// Which face of which image is the leaving facet, in tile (0, 0).
-#[inline]
-fn pinned(skip: Option<u32>, image: u32, tile_zero: bool) -> Option<u32> {
-    match skip {
-        Some(f) if tile_zero && f != GROUND_FACET && (f - 1) / 4 == image => Some((f - 1) % 4),
-        _ => None,
-    }
-}
-
-impl Texture for RandomPyramids {
-    fn period_um(&self) -> [f64; 2] {
-        [self.tile; 2]
-    }
-
-    fn z_range_um(&self) -> [f64; 2] {
-        [0.0, self.z_max]
-    }
-
-    fn intersect(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<Hit> {
+    /// The facet left (if it is one of the tile's) and [t_start, t_end, z_lo, z_hi]: the
+    /// parameter interval where the ray is inside the padded slab [z_lo, z_hi]; `None` if it
+    /// never is.
+    #[inline(always)]
+    fn query(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<(Option<u32>, [f64; 4])> {
         let (z_lo, z_hi) = (-self.pad, self.z_max + self.pad);
-        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
+        // `slab_interval`, its minima and maxima free of NaN handling (none can arise).
+        let (t_start, t_end) = if d.z == 0.0 {
+            slab_interval(o.z, d.z, z_lo, z_hi)?
+        } else {
+            let inv = 1.0 / d.z;
+            let (ta, tb) = ((z_lo - o.z) * inv, (z_hi - o.z) * inv);
+            let (t0, t1) = (max_of(min_of(ta, tb), 0.0), max_of(ta, tb));
+            let meets_slab = t0 <= t1; // false for NaN too
+            if !meets_slab {
+                return None;
+            }
+            (t0, t1)
+        };
         let n_facets = 1 + 4 * self.images.len() as u32;
         let skip = skip.map(|f| f.0).filter(|&f| f < n_facets);
+        Some((skip, [t_start, t_end, z_lo, z_hi]))
+    }
+
+    /// Closed-form crossing for the common case: `Some(Some(hit))` a crossing, `Some(None)`
+    /// none before the ray leaves the slab, `None` undecided (the robust walk,
+    /// [`Self::robust_crossing`], then decides). `d.z ≠ 0`.
+    ///
+    /// The same walk as the robust one, cell by cell, with the same spans computed by the same
+    /// floating-point operations (so every comparison comes out the same), but lean: a span is
+    /// two numbers, the face slopes and their reciprocals are set up once per query, the
+    /// planes bounding a span are found only for the one that decides, a cell seen from below
+    /// is left as soon as the spans found so far keep the ray below to its end, and no
+    /// [`Span`] or [`Entry`] is built. It answers only where the robust walk takes its direct
+    /// route — side known from the slab or the facet left, each crossing inside its cell and
+    /// deep enough at once — and returns `None` wherever that walk would fall back to its full
+    /// analysis (an origin on the surface with no facet to leave, a ray along a plane, a
+    /// change of side at a cell wall, a shallow excursion, more spans in a cell than it
+    /// holds). Where it answers, the answer is the robust walk's (test:
+    /// `fast_path_agrees_with_the_robust_walk`). One shortcut is geometric rather than a
+    /// replay: a ray leaving a facet down into its pyramid that stays clearly (by
+    /// `fast_margin`, 10⁻¹⁰ of the feature size) inside pyramids until it is below the base
+    /// plane is answered "no crossing" without a walk — what the walk finds too.
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn fast_crossing(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        t_start: f64,
+        t_end: f64,
+        z_lo: f64,
+        z_hi: f64,
+    ) -> Option<Option<FastHit<'_>>> {
+        match self.common_tan {
+            Some(tan) => {
+                let common = LeanFaces::new(tan, d)?;
+                self.fast_walk::<true>(o, d, skip, [t_start, t_end, z_lo, z_hi], &common)
+            }
+            None => {
+                let unused = LeanFaces::UNUSED;
+                self.fast_walk::<false>(o, d, skip, [t_start, t_end, z_lo, z_hi], &unused)
+            }
+        }
+    }
+
+    /// [`Self::fast_crossing`] with the face slopes `common` to all pyramids (`COMMON`) or
+    /// set up per pyramid; `limits` = [t_start, t_end, z_lo, z_hi].
+    #[inline(always)]
+    fn fast_walk<const COMMON: bool>(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        limits: [f64; 4],
+        common: &LeanFaces,
+    ) -> Option<Option<FastHit<'_>>> {
+        let [t_start, t_end, z_lo, z_hi] = limits;
+        // Side the ray starts on: outside the slab, or the side it leaves the skipped facet to
+        // (the sign of the facet's dG/dt, never 0 here).
+        let above = if o.z > z_hi {
+            true
+        } else if o.z < z_lo {
+            false
+        } else {
+            match skip? {
+                GROUND_FACET => d.z > 0.0,
+                f => {
+                    let im = &self.images[((f - 1) / 4) as usize];
+                    Self::faces::<COMMON>(common, im.tan_a, d)?.cap[((f - 1) % 4) as usize] < 0.0
+                }
+            }
+        };
+        // The base plane: the gap of `Gap::new` with its on-plane rule, then its half-line.
+        let oz_abs = o.z.abs();
+        let cg = if skip == Some(GROUND_FACET) || oz_abs <= max_of(gamma(6) * oz_abs, self.tol) {
+            0.0
+        } else {
+            o.z
+        };
+        let rg = -cg * (1.0 / d.z);
+        let ray = LeanRay {
+            o,
+            d,
+            oz_abs,
+            ground: if d.z > 0.0 {
+                (f64::NEG_INFINITY, rg)
+            } else {
+                (rg, f64::INFINITY)
+            },
+            skip_image: match skip {
+                Some(f) if f != GROUND_FACET => (f - 1) / 4,
+                _ => u32::MAX,
+            },
+            skip_face: skip.map_or(0, |f| f.wrapping_sub(1) % 4),
+        };
+        // A ray leaving a pyramid face down into that pyramid, which reaches the base plane
+        // before leaving the pyramid (or the pyramids it passes into), stays below the
+        // surface: no crossing. Decided only when the ray is clearly (by `fast_margin`) inside
+        // a pyramid at each hand-over and where it meets the base plane; the robust walk finds
+        // no crossing either (in every cell those pyramids' spans, or those of the pyramids
+        // above them there, and the base plane's cover the ray).
+        if !above && d.z < 0.0 && ray.skip_image != u32::MAX {
+            let im = &self.images[ray.skip_image as usize];
+            let it = Item {
+                image: ray.skip_image,
+                top: im.height,
+                cx: im.cx,
+                cy: im.cy,
+                height: im.height,
+                tan_a: im.tan_a,
+                w: im.planes.map(|p| p.w),
+            };
+            let f = Self::faces::<COMMON>(common, im.tan_a, d)?;
+            let sp = self.cone_tagged(&f, &it, o.x, o.y, &ray, true);
+            if sp.s <= 0.0 {
+                if f.rate_min * (sp.e - ray.ground.0) > self.fast_margin {
+                    return Some(None);
+                }
+                if self.stays_below::<COMMON>(common, &ray, sp.e) {
+                    return Some(None);
+                }
+            }
+        }
+        let walk = LeanWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY);
+        if above {
+            self.fast_above::<COMMON>(&ray, walk, common)
+        } else {
+            self.fast_below::<COMMON>(&ray, walk, common)
+        }
+    }
+
+    /// Whether a ray that is inside pyramids from its origin up to `x`, where it leaves the
+    /// last one above the base plane, passes into another pyramid there (entered clearly
+    /// before `x`, left clearly after) and so on, a few times at most, until it is clearly
+    /// inside one where it meets the base plane. Then it never crosses the surface.
+    #[inline(never)]
+    fn stays_below<const COMMON: bool>(&self, common: &LeanFaces, ray: &LeanRay, x: f64) -> bool {
+        let (o, d, m) = (ray.o, ray.d, self.fast_margin);
+        let n = self.grid_n;
+        let mut x = x;
+        for _ in 0..4 {
+            // The pyramid of the cell under the hand-over point that goes on longest.
+            let p = o + x * d;
+            let (gi, gj) = (floor_i64(p.x / self.cell), floor_i64(p.y / self.cell));
+            let ((ti, li), (tj, lj)) = (tile_and_cell(gi, n), tile_and_cell(gj, n));
+            let (olx, oly) = (o.x - ti as f64 * self.tile, o.y - tj as f64 * self.tile);
+            let zero = ti == 0 && tj == 0;
+            let mut next: Option<(f64, f64)> = None;
+            for it in self.cell_items(li, lj).0 {
+                if it.top + self.pad < p.z {
+                    break;
+                }
+                let Some(f) = Self::faces::<COMMON>(common, it.tan_a, d) else {
+                    return false;
+                };
+                let pinned = zero && it.image == ray.skip_image;
+                let sp = self.cone_tagged(&f, it, olx, oly, ray, pinned);
+                let inside = f.rate_min * min_of(x - sp.s, sp.e - x) > m;
+                if inside && next.is_none_or(|(e, _)| sp.e > e) {
+                    next = Some((sp.e, f.rate_min));
+                }
+            }
+            let Some((e, rate)) = next else {
+                return false;
+            };
+            if rate * (e - ray.ground.0) > m {
+                return true;
+            }
+            x = e;
+        }
+        false
+    }
+
+    /// The fast walk of a ray starting above the surface.
+    #[inline(always)]
+    fn fast_above<const COMMON: bool>(
+        &self,
+        ray: &LeanRay,
+        walk: LeanWalk,
+        common: &LeanFaces,
+    ) -> Option<Option<FastHit<'_>>> {
+        let (o, d) = (ray.o, ray.d);
+        let n = self.grid_n;
+        let margin = self.pad;
+        let (ground_s, ground_e) = ray.ground;
+        for cell in walk {
+            let (t0, t1) = (cell.t0, cell.t1);
+            let (za, zb) = (o.z + t0 * d.z, o.z + t1 * d.z);
+            let z_min = min_of(za, zb);
+            let ((ti, li), (tj, lj)) = (tile_and_cell(cell.i, n), tile_and_cell(cell.j, n));
+            let (items, [_, z_top]) = self.cell_items(li, lj);
+            // Cells where the ray stays above the surface's height range.
+            if z_min > z_top + margin {
+                continue;
+            }
+            let (tx, ty) = (ti as f64 * self.tile, tj as f64 * self.tile);
+            let (olx, oly) = (o.x - tx, o.y - ty);
+            let zero = ti == 0 && tj == 0;
+            // The earliest entry into the ground or a pyramid, pyramids in order of height
+            // until one is lower than the ray before that entry.
+            let (mut best_t, mut best_s, mut best_e) = (f64::INFINITY, 0.0, 0.0);
+            let (mut best_tag, mut best_rate) = (GROUND_FACET, d.z.abs());
+            let mut best_item: Option<&Item> = None;
+            // Lowest point of the ray before the best entry so far.
+            let mut z_far = z_min;
+            let t = max_of(ground_s, t0);
+            if t < ground_e && t <= t1 {
+                (best_t, best_s, best_e) = (t, ground_s, ground_e);
+                z_far = min_of(za, o.z + t * d.z);
+            }
+            for it in items {
+                if it.top + margin < z_far {
+                    break;
+                }
+                let (s, e, tag, rate) = self.bounds::<COMMON>(common, ray, it, olx, oly, zero)?;
+                let t = max_of(s, t0);
+                if t < e && t <= t1 && t < best_t {
+                    (best_t, best_s, best_e, best_item) = (t, s, e, Some(it));
+                    (best_tag, best_rate) = (tag, rate);
+                    z_far = min_of(za, o.z + t * d.z);
+                }
+            }
+            if best_t == f64::INFINITY {
+                continue;
+            }
+            // Inside at the cell's entry: a crossing at the wall, for the robust walk.
+            if best_s < t0 {
+                return None;
+            }
+            // Deep enough inside that one solid (`excursion_depth` with the rates of the planes
+            // bounding the span, each at least `best_rate`: the bound, when it suffices, says
+            // the same), else the robust walk.
+            let until = min_of(best_e, t1);
+            let deep = 4.0 * self.depth;
+            let deep_enough = best_rate * (until - best_s) > deep;
+            if !deep_enough {
+                let it = best_item?;
+                let sp =
+                    self.tagged::<COMMON>(common, ray, it, olx, oly, zero, (best_s, best_e))?;
+                let depth = min_of(sp.rs * (until - best_s), sp.re * (until - best_t));
+                let deep_enough = depth > deep;
+                if !deep_enough {
+                    return None;
+                }
+            }
+            return Some(Some(FastHit {
+                t: best_t,
+                facet: best_tag,
+                tx,
+                ty,
+                items,
+            }));
+        }
+        Some(None)
+    }
+
+    /// The fast walk of a ray starting below the surface.
+    #[inline(always)]
+    fn fast_below<const COMMON: bool>(
+        &self,
+        ray: &LeanRay,
+        walk: LeanWalk,
+        common: &LeanFaces,
+    ) -> Option<Option<FastHit<'_>>> {
+        let (o, d) = (ray.o, ray.d);
+        let n = self.grid_n;
+        let margin = self.pad;
+        // Spans of a cell: start, end, index in the cell's list (`u32::MAX`: the base plane,
+        // always first).
+        let mut spans = [(0.0, 0.0, u32::MAX); FAST_SPANS];
+        spans[0] = (ray.ground.0, ray.ground.1, u32::MAX);
+        'cells: for cell in walk {
+            let (t0, t1) = (cell.t0, cell.t1);
+            let (za, zb) = (o.z + t0 * d.z, o.z + t1 * d.z);
+            let ((ti, li), (tj, lj)) = (tile_and_cell(cell.i, n), tile_and_cell(cell.j, n));
+            let (items, [z_floor, _]) = self.cell_items(li, lj);
+            // Cells where the ray stays below the surface's height range.
+            if max_of(za, zb) < z_floor - margin {
+                continue;
+            }
+            let (tx, ty) = (ti as f64 * self.tile, tj as f64 * self.tile);
+            let (olx, oly) = (o.x - tx, o.y - ty);
+            let zero = ti == 0 && tj == 0;
+            // The first t ≥ t0 outside the union of the spans found so far, x, only grows as
+            // spans are added; once past t1 the cell has no crossing, whatever the other
+            // spans (`first_outside_union` over all of them would be past t1 too).
+            let (gs, ge, _) = spans[0];
+            let mut x = if gs <= t0 && t0 < ge { ge } else { t0 };
+            if x > t1 {
+                continue;
+            }
+            let z_min = min_of(za, zb);
+            let mut m = 1;
+            for (k, it) in items.iter().enumerate() {
+                if it.top + margin < z_min {
+                    break;
+                }
+                if m == FAST_SPANS {
+                    return None;
+                }
+                let (s, e, _, _) = self.bounds::<COMMON>(common, ray, it, olx, oly, zero)?;
+                if s <= x && x < e {
+                    // Moved: the spans found before may now contain x.
+                    x = e;
+                    let mut moved = true;
+                    while moved {
+                        moved = false;
+                        for &(s, e, _) in &spans[..m] {
+                            if s <= x && x < e {
+                                (x, moved) = (e, true);
+                            }
+                        }
+                    }
+                    if x > t1 {
+                        continue 'cells;
+                    }
+                }
+                spans[m] = (s, e, k as u32);
+                m += 1;
+            }
+            // Never inside (a crossing at the cell's wall): robust walk.
+            if x == t0 {
+                return None;
+            }
+            // The crossing, pass for pass as `first_outside_union` (which span ends it).
+            let spans = &spans[..m];
+            let (mut t, mut last) = (t0, 0);
+            for _ in 0..=m {
+                let mut moved = false;
+                for (k, &(s, e, _)) in spans.iter().enumerate() {
+                    if s <= t && t < e {
+                        (t, last, moved) = (e, k, true);
+                    }
+                }
+                if !moved {
+                    break;
+                }
+            }
+            let (tag, rate) = match spans[last].2 {
+                u32::MAX => (GROUND_FACET, d.z.abs()),
+                k => {
+                    let it = &items[k as usize];
+                    let span = (spans[last].0, spans[last].1);
+                    let sp = self.tagged::<COMMON>(common, ray, it, olx, oly, zero, span)?;
+                    (sp.te, sp.re)
+                }
+            };
+            // Not deep enough above at the cell's end (`cell_entry`'s direct acceptance):
+            // robust walk.
+            let deep_enough = rate * (t1 - t) > self.depth;
+            if !deep_enough {
+                return None;
+            }
+            return Some(Some(FastHit {
+                t,
+                facet: tag,
+                tx,
+                ty,
+                items,
+            }));
+        }
+        Some(None)
+    }
+
+    /// Face slopes for a pyramid with slope `tan_a`: the shared ones (`COMMON`) or its own.
+    #[inline(always)]
+    fn faces<const COMMON: bool>(common: &LeanFaces, tan_a: f64, d: Vec3) -> Option<LeanFaces> {
+        if COMMON {
+            Some(*common)
+        } else {
+            LeanFaces::new(tan_a, d)
+        }
+    }
+
+    /// Below-surface span [s, e) of the pyramid image of item `it` along the ray from
+    /// (`olx`, `oly`, o.z) in the tile frame of a cell (`zero`: tile (0, 0)), the facet
+    /// starting it, and the smallest |dG/dt| of its faces; `None` if the ray runs parallel to
+    /// one of its faces.
+    #[inline(always)]
+    fn bounds<const COMMON: bool>(
+        &self,
+        common: &LeanFaces,
+        ray: &LeanRay,
+        it: &Item,
+        olx: f64,
+        oly: f64,
+        zero: bool,
+    ) -> Option<(f64, f64, u32, f64)> {
+        let f = Self::faces::<COMMON>(common, it.tan_a, ray.d)?;
+        let pinned = zero && it.image == ray.skip_image;
+        if !pinned && let Some((s, e, ts)) = self.cone_bounds(&f, it, olx, oly, ray) {
+            return Some((s, e, ts, f.rate_min));
+        }
+        let sp = self.cone_tagged(&f, it, olx, oly, ray, pinned);
+        Some((sp.s, sp.e, sp.ts, f.rate_min))
+    }
+
+    /// The span [`s`, `e`) of item `it` found by [`Self::bounds`], with the planes bounding it
+    /// and their rates: the faces [`Self::cone_tagged`] would name (the first face giving the
+    /// latest start and the first giving the earliest end), found again from the roots.
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn tagged<const COMMON: bool>(
+        &self,
+        common: &LeanFaces,
+        ray: &LeanRay,
+        it: &Item,
+        olx: f64,
+        oly: f64,
+        zero: bool,
+        (s, e): (f64, f64),
+    ) -> Option<Lean> {
+        let f = Self::faces::<COMMON>(common, it.tan_a, ray.d)?;
+        let pinned = zero && it.image == ray.skip_image;
+        let (q, u, v, err) = self.origin_gaps(&f, it, olx, oly, ray);
+        if pinned || !clear_of_planes(q, u, v, err) {
+            return Some(self.cone_tagged(&f, it, olx, oly, ray, pinned));
+        }
+        let r = face_roots(&f, q, u, v);
+        let c = &f.cap;
+        let first = |x: [f64; 4], v: f64| {
+            if x[0] == v {
+                0
+            } else if x[1] == v {
+                1
+            } else if x[2] == v {
+                2
+            } else {
+                3
+            }
+        };
+        let ts = first(std::array::from_fn(|k| min_of(r[k], c[k])), s);
+        let te = first(std::array::from_fn(|k| max_of(r[k], c[k])), e);
+        let tag = 1 + 4 * it.image;
+        Some(Lean {
+            s,
+            e,
+            ts: tag + ts as u32,
+            te: tag + te as u32,
+            rs: f.rate[ts],
+            re: f.rate[te],
+        })
+    }
+
+    /// The gaps c = q ± u, q ± v of the ray origin (`olx`, `oly`, o.z) to the four faces of
+    /// the pyramid image of item `it`, and their on-plane tolerance, as `SquareFaces::gaps`
+    /// computes them: (q, u, v, tolerance).
+    #[inline(always)]
+    fn origin_gaps(
+        &self,
+        f: &LeanFaces,
+        it: &Item,
+        olx: f64,
+        oly: f64,
+        ray: &LeanRay,
+    ) -> (f64, f64, f64, f64) {
+        let u = f.tan * (olx - it.cx);
+        let v = f.tan * (oly - it.cy);
+        let h = it.height;
+        let q = ray.o.z - h;
+        let err = max_of(
+            gamma(6) * (ray.oz_abs + h.abs() + u.abs() + v.abs()),
+            self.tol,
+        );
+        (q, u, v, err)
+    }
+
+    /// The hit of a crossing found by the fast path: the point in the tile frame, snapped onto
+    /// the surface, as the robust walk makes it.
+    #[inline(always)]
+    fn fast_hit(&self, o: Vec3, d: Vec3, h: FastHit) -> Hit {
+        let FastHit {
+            t,
+            facet,
+            tx,
+            ty,
+            items,
+        } = h;
+        let p = o + t * d;
+        // `clamp_into` with the tile side's predecessor stored.
+        let below = self.tile_below;
+        let inside = |v: f64| {
+            if v < 0.0 {
+                0.0
+            } else if v > below {
+                below
+            } else {
+                v
+            }
+        };
+        let (x, y) = (inside(p.x - tx), inside(p.y - ty));
+        // The envelope, without the pyramids that cannot reach the running maximum (the
+        // list is sorted by the highest point over the cell, a bound for every point of it):
+        // the result of `envelope`. A face's height a·x + b·y + w, with one of a, b zero and
+        // x, y ≥ 0, is a·x + w to the bit (adding the zero term changes nothing but the sign
+        // of a zero, which adding w then drops).
+        let mut z = 0.0;
+        let mut active: Option<(&Item, usize)> = None;
+        for it in items {
+            if it.top + self.pad < z {
+                break;
+            }
+            let (ux, uy) = (it.tan_a * x, it.tan_a * y);
+            let (z0, z1, z2, z3) = (it.w[0] - ux, ux + it.w[1], it.w[2] - uy, uy + it.w[3]);
+            // The lowest face, the first on ties (as `Image::cone_at`).
+            let (za, ka) = if z1 < z0 { (z1, 1) } else { (z0, 0) };
+            let (zb, kb) = if z3 < z2 { (z3, 3) } else { (z2, 2) };
+            let (zi, k) = if zb < za { (zb, kb) } else { (za, ka) };
+            if zi > z {
+                (z, active) = (zi, Some((it, k)));
+            }
+        }
+        let z_err = match active {
+            Some((it, k)) => self.images[it.image as usize].planes[k].z_err(x, y),
+            None => HeightPlane::GROUND.z_err(x, y),
+        };
+        let normal = if facet == GROUND_FACET {
+            Vec3::Z
+        } else {
+            self.images[((facet - 1) / 4) as usize].normal((facet - 1) % 4)
+        };
+        facet_hit(
+            t,
+            Vec3::new(x, y, z),
+            snapped_err(x, y, z_err),
+            normal,
+            facet,
+        )
+    }
+
+    /// Below-surface span [s, e) of the pyramid image of item `it` along the ray from
+    /// (`olx`, `oly`, o.z) in a tile frame, when no face's gap at the origin is within its
+    /// on-plane tolerance (`None` otherwise: see [`Self::cone_tagged`]): the bounds of
+    /// [`Self::cone_span`], from the same operations, and the facet starting it.
+    #[inline(always)]
+    fn cone_bounds(
+        &self,
+        f: &LeanFaces,
+        it: &Item,
+        olx: f64,
+        oly: f64,
+        ray: &LeanRay,
+    ) -> Option<(f64, f64, u32)> {
+        let (q, u, v, err) = self.origin_gaps(f, it, olx, oly, ray);
+        if !clear_of_planes(q, u, v, err) {
+            return None;
+        }
+        let r = face_roots(f, q, u, v);
+        let c = &f.cap;
+        // Latest start, its first face (as the chain of `Span::and`, pairwise), earliest end.
+        let (s0, s1, s2, s3) = (
+            min_of(r[0], c[0]),
+            min_of(r[1], c[1]),
+            min_of(r[2], c[2]),
+            min_of(r[3], c[3]),
+        );
+        let (sa, ka) = if s1 > s0 { (s1, 1) } else { (s0, 0) };
+        let (sb, kb) = if s3 > s2 { (s3, 3) } else { (s2, 2) };
+        let (s, ks) = if sb > sa { (sb, kb) } else { (sa, ka) };
+        let e = min_of(
+            min_of(max_of(r[0], c[0]), max_of(r[1], c[1])),
+            min_of(max_of(r[2], c[2]), max_of(r[3], c[3])),
+        );
+        Some((s, e, 1 + 4 * it.image + ks))
+    }
+
+    /// Below-surface span of the pyramid image of item `im` along the ray from (`olx`, `oly`,
+    /// o.z) in a tile frame, with the planes bounding it and their rates (`pinned`: the facet left is
+    /// a face of it, declared as the plane the ray leaves): [`Self::cone_span`] from the same
+    /// operations, on-plane rule included.
+    #[inline(always)]
+    fn cone_tagged(
+        &self,
+        f: &LeanFaces,
+        im: &Item,
+        olx: f64,
+        oly: f64,
+        ray: &LeanRay,
+        pinned: bool,
+    ) -> Lean {
+        let (q, u, v, err) = self.origin_gaps(f, im, olx, oly, ray);
+        let pin = if pinned { ray.skip_face } else { 4 };
+        let gap = |c: f64, k: u32| {
+            if c.abs() <= err || k == pin { 0.0 } else { c }
+        };
+        // Roots −c/e; a face the ray dives under (cap +∞) bounds the span's start, one it
+        // rises over (cap −∞) its end: latest start and earliest end, the first face winning
+        // ties (as `Span::and`).
+        let r = [
+            gap(q + u, 0) * f.ninv[0],
+            gap(q - u, 1) * f.ninv[1],
+            gap(q + v, 2) * f.ninv[2],
+            gap(q - v, 3) * f.ninv[3],
+        ];
+        let (mut s, mut ts) = (f64::NEG_INFINITY, 0);
+        let (mut e, mut te) = (f64::INFINITY, 0);
+        for (k, (&rk, &ck)) in r.iter().zip(&f.cap).enumerate() {
+            let sk = min_of(rk, ck);
+            if k == 0 || sk > s {
+                (s, ts) = (sk, k);
+            }
+            let ek = max_of(rk, ck);
+            if k == 0 || ek < e {
+                (e, te) = (ek, k);
+            }
+        }
+        let tag = 1 + 4 * im.image;
+        Lean {
+            s,
+            e,
+            ts: tag + ts as u32,
+            te: tag + te as u32,
+            rs: f.rate[ts],
+            re: f.rate[te],
+        }
+    }
+
+    /// The robust walk (see the module doc): decides every query, including those the fast
+    /// path ([`Self::fast_crossing`]) leaves open.
+    #[inline(never)]
+    #[allow(clippy::too_many_arguments)]
+    fn robust_crossing(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        t_start: f64,
+        t_end: f64,
+        z_lo: f64,
+        z_hi: f64,
+    ) -> Option<Hit> {
         let n = self.grid_n;
         // Grid cell → cell in the tile, tile offset, origin in that tile's frame.
         let locate = |gi: i64, gj: i64| {
@@ -977,6 +1602,278 @@ impl Texture for RandomPyramids {
         }
         None
     }
+}
+
+/// Face slopes along a ray, shared by every pyramid with the common facet angle (set up once
+/// per ray).
+struct FaceSlopes {
+    d: Vec3,
+    common: Option<SquareFaces>,
+}
+
+impl FaceSlopes {
+    fn new(d: Vec3, common_tan: Option<f64>) -> FaceSlopes {
+        FaceSlopes {
+            d,
+            common: common_tan.map(|t| SquareFaces::new(t, d, false)),
+        }
+    }
+}
+
+/// The four face slopes of pyramids with facet slope `tan` along one ray, for the fast path:
+/// with e = dG/dt of each face as in [`SquareFaces::new`], −1/e (a root is c·(−1/e), the
+/// same number as −c·(1/e)), |e|, and the cap ±∞ = −sign(e)·∞ that turns a root into the start
+/// of the below-surface span (a face the ray dives under, e < 0: min(root, +∞)) or its end
+/// (e > 0: max(root, −∞)), the other bound staying infinite.
+#[derive(Clone, Copy, Debug)]
+struct LeanFaces {
+    tan: f64,
+    ninv: [f64; 4],
+    rate: [f64; 4],
+    /// The smallest of `rate`.
+    rate_min: f64,
+    cap: [f64; 4],
+}
+
+impl LeanFaces {
+    /// Placeholder where no facet angle is shared.
+    const UNUSED: LeanFaces = LeanFaces {
+        tan: 0.0,
+        ninv: [0.0; 4],
+        rate: [0.0; 4],
+        rate_min: 0.0,
+        cap: [0.0; 4],
+    };
+
+    /// Set-up for slope `tan` and direction `d`; `None` if the ray runs parallel to a face.
+    #[inline(always)]
+    fn new(tan: f64, d: Vec3) -> Option<LeanFaces> {
+        let (tx, ty) = (tan * d.x, tan * d.y);
+        let e = [d.z + tx, d.z - tx, d.z + ty, d.z - ty];
+        if e.contains(&0.0) {
+            return None;
+        }
+        let rate = e.map(f64::abs);
+        Some(LeanFaces {
+            tan,
+            ninv: e.map(|v| -(1.0 / v)),
+            rate,
+            rate_min: min_of(min_of(rate[0], rate[1]), min_of(rate[2], rate[3])),
+            cap: e.map(|v| f64::INFINITY.copysign(-v)),
+        })
+    }
+}
+
+/// A crossing found by the fast path at ray parameter `t` on `facet`, in the cell with list
+/// `items` of the tile shifted by (`tx`, `ty`).
+struct FastHit<'a> {
+    t: f64,
+    facet: u32,
+    tx: f64,
+    ty: f64,
+    items: &'a [Item],
+}
+
+/// A ray as the fast path uses it: origin, direction, |o.z|, its below-ground span, and the
+/// facet it leaves.
+struct LeanRay {
+    o: Vec3,
+    d: Vec3,
+    oz_abs: f64,
+    ground: (f64, f64),
+    /// Image of the pyramid facet left (`u32::MAX` if none) and its face.
+    skip_image: u32,
+    skip_face: u32,
+}
+
+/// True when none of the gaps q ± u, q ± v is within `err` of 0 (the on-plane rule of
+/// `SquareFaces::gaps` leaves them all as they are): the smaller of |q + u| and |q − u| is
+/// ||q| − |u||, to the bit (rounding to nearest is odd).
+#[inline(always)]
+fn clear_of_planes(q: f64, u: f64, v: f64, err: f64) -> bool {
+    let aq = q.abs();
+    min_of((aq - u.abs()).abs(), (aq - v.abs()).abs()) > err
+}
+
+/// Roots −c/e of the four face gaps c = q ± u, q ± v along the ray (as −c·(1/e)).
+#[inline(always)]
+fn face_roots(f: &LeanFaces, q: f64, u: f64, v: f64) -> [f64; 4] {
+    [
+        (q + u) * f.ninv[0],
+        (q - u) * f.ninv[1],
+        (q + v) * f.ninv[2],
+        (q - v) * f.ninv[3],
+    ]
+}
+
+/// The smaller of two numbers, neither NaN (one `minsd`; `f64::min` also handles NaN).
+#[inline(always)]
+fn min_of(a: f64, b: f64) -> f64 {
+    if a < b { a } else { b }
+}
+
+/// The larger of two numbers, neither NaN.
+#[inline(always)]
+fn max_of(a: f64, b: f64) -> f64 {
+    if a > b { a } else { b }
+}
+
+/// A span [s, e) of the ray parameter with the planes bounding it and |dG/dt| of each (the
+/// fast path's light counterpart of [`Span`]; empty when s ≥ e).
+#[derive(Clone, Copy, Debug)]
+struct Lean {
+    s: f64,
+    e: f64,
+    ts: u32,
+    te: u32,
+    rs: f64,
+    re: f64,
+}
+
+/// The cells of [`GridWalk`] along a ray, with the same indices and the same t bounds to the
+/// bit (the same operations; minima and maxima without NaN handling, none can arise), for the
+/// fast path: the walk's state stays in registers. Test: `lean_walk_is_the_grid_walk`.
+#[derive(Clone, Debug)]
+struct LeanWalk {
+    cell: f64,
+    ox: f64,
+    oy: f64,
+    inv_dx: f64,
+    inv_dy: f64,
+    i: i64,
+    j: i64,
+    step_i: i64,
+    step_j: i64,
+    t_next_i: f64,
+    t_next_j: f64,
+    t: f64,
+    t_end: f64,
+    left: usize,
+}
+
+impl LeanWalk {
+    /// As [`GridWalk::new`].
+    #[inline(always)]
+    fn new(o: Vec3, d: Vec3, cell: f64, t_start: f64, t_end: f64, max_cells: usize) -> Self {
+        let p = o + t_start * d;
+        let inv_cell = 1.0 / cell;
+        let i = floor_i64(p.x * inv_cell);
+        let j = floor_i64(p.y * inv_cell);
+        let (step_i, step_j) = (
+            if d.x > 0.0 { 1 } else { -1 },
+            if d.y > 0.0 { 1 } else { -1 },
+        );
+        let (inv_dx, inv_dy) = (1.0 / d.x, 1.0 / d.y);
+        let t_next_i = Self::boundary(i, step_i, cell, o.x, d.x, inv_dx);
+        let t_next_j = Self::boundary(j, step_j, cell, o.y, d.y, inv_dy);
+        LeanWalk {
+            cell,
+            ox: o.x,
+            oy: o.y,
+            inv_dx,
+            inv_dy,
+            i,
+            j,
+            step_i,
+            step_j,
+            t_next_i,
+            t_next_j,
+            t: t_start,
+            t_end,
+            left: if t_start > t_end { 0 } else { max_cells },
+        }
+    }
+
+    /// Parameter where the ray crosses the next wall of cell `i` along one axis.
+    #[inline(always)]
+    fn boundary(i: i64, step: i64, cell: f64, o: f64, d: f64, inv_d: f64) -> f64 {
+        if d == 0.0 {
+            return f64::INFINITY;
+        }
+        let k = if step > 0 { i + 1 } else { i };
+        (k as f64 * cell - o) * inv_d
+    }
+}
+
+impl Iterator for LeanWalk {
+    type Item = GridCell;
+
+    #[inline(always)]
+    fn next(&mut self) -> Option<GridCell> {
+        if self.left == 0 {
+            return None;
+        }
+        self.left -= 1;
+        let t0 = self.t;
+        let t_next = min_of(self.t_next_i, self.t_next_j);
+        let (i, j) = (self.i, self.j);
+        if t_next >= self.t_end {
+            self.left = 0;
+            return Some(GridCell {
+                i,
+                j,
+                t0,
+                t1: max_of(self.t_end, t0),
+            });
+        }
+        let t1 = max_of(t_next, t0);
+        if self.t_next_i <= self.t_next_j {
+            self.i += self.step_i;
+            self.t_next_i =
+                Self::boundary(self.i, self.step_i, self.cell, self.ox, 1.0, self.inv_dx);
+        } else {
+            self.j += self.step_j;
+            self.t_next_j =
+                Self::boundary(self.j, self.step_j, self.cell, self.oy, 1.0, self.inv_dy);
+        }
+        self.t = t1;
+        Some(GridCell { i, j, t0, t1 })
+    }
+}
+
+/// Tile index and cell within the tile of grid cell `g` (n cells per tile): the Euclidean
+/// quotient and remainder, without an integer division for the tile and its neighbours
+/// (where nearly every ray is).
+#[inline(always)]
+fn tile_and_cell(g: i64, n: i64) -> (i64, i64) {
+    if (0..n).contains(&g) {
+        (0, g)
+    } else if (n..2 * n).contains(&g) {
+        (1, g - n)
+    } else if (-n..0).contains(&g) {
+        (-1, g + n)
+    } else {
+        (g.div_euclid(n), g.rem_euclid(n))
+    }
+}
+
+/// Which face of which image is the leaving facet, in tile (0, 0).
+#[inline]
+fn pinned(skip: Option<u32>, image: u32, tile_zero: bool) -> Option<u32> {
+    match skip {
+        Some(f) if tile_zero && f != GROUND_FACET && (f - 1) / 4 == image => Some((f - 1) % 4),
+        _ => None,
+    }
+}
+
+impl Texture for RandomPyramids {
+    fn period_um(&self) -> [f64; 2] {
+        [self.tile; 2]
+    }
+
+    fn z_range_um(&self) -> [f64; 2] {
+        [0.0, self.z_max]
+    }
+
+    fn intersect(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<Hit> {
+        let (skip, [t_start, t_end, z_lo, z_hi]) = self.query(o, d, skip)?;
+        if d.z != 0.0
+            && let Some(found) = self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
+        {
+            return found.map(|h| self.fast_hit(o, d, h));
+        }
+        self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
+    }
 
     fn facet_tilts_deg(&self) -> Vec<f64> {
         let mut t = self.facet_tilts();
@@ -1026,6 +1923,7 @@ impl Texture for RandomPyramids {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::f64::consts::TAU;
 
     #[test]
     fn tile_and_cell_is_the_euclidean_division() {
@@ -1037,6 +1935,135 @@ mod tests {
                     "{g} / {n}"
                 );
             }
+        }
+    }
+
+    /// The fast path must give the robust walk's answer wherever it decides, and decide almost
+    /// everywhere: rays from above (near normal and cosine-distributed) and from below, then
+    /// the rays leaving each hit by mirror reflection or refraction into (or out of) silicon,
+    /// n = 3.94, as the tracer makes them; on the tile of the throughput example, a finer one,
+    /// and one with a facet-angle spread (per-pyramid face slopes).
+    #[test]
+    fn fast_path_agrees_with_the_robust_walk() {
+        use crate::geometry::robust::offset_origin;
+        let specs = [
+            RandomPyramidsSpec::log_normal_height(3.0, 0.35, 1),
+            RandomPyramidsSpec::log_normal_height(1.0, 0.35, 7),
+            RandomPyramidsSpec {
+                size: SizeDistribution::Uniform {
+                    min_um: 1.0,
+                    max_um: 4.0,
+                },
+                angle_spread_deg: 1.5,
+                pyramid_count: 150,
+                ..RandomPyramidsSpec::log_normal_height(2.0, 0.0, 3)
+            },
+        ];
+        let n_si = 3.94;
+        for (n, spec) in specs.into_iter().enumerate() {
+            let tex = RandomPyramids::new(spec).unwrap();
+            let l = tex.tile_um();
+            let [z_min, z_max] = tex.z_range_um();
+            let mut rng = Stream::new(23, n as u64, 0);
+            let (mut decided, mut total, mut hits) = (0usize, 0usize, 0usize);
+            for k in 0..3000 {
+                // Launch: 3 in 4 from above (half of them within 10° of the normal).
+                let from_above = k % 4 != 3;
+                let mut dir = if k % 2 == 0 {
+                    let (st, phi) = (
+                        (10f64).to_radians().sin() * rng.uniform(),
+                        TAU * rng.uniform(),
+                    );
+                    Vec3::new(st * phi.cos(), st * phi.sin(), (1.0 - st * st).sqrt())
+                } else {
+                    rng.cosine_hemisphere()
+                };
+                if from_above {
+                    dir.z = -dir.z;
+                }
+                let z0 = if from_above {
+                    z_max + 0.01
+                } else {
+                    z_min - 0.01
+                };
+                let mut origin = Vec3::new(rng.uniform() * l, rng.uniform() * l, z0);
+                let mut skip = None;
+                let mut above = from_above;
+                for _ in 0..8 {
+                    let Some((sk, [t_start, t_end, z_lo, z_hi])) = tex.query(origin, dir, skip)
+                    else {
+                        break;
+                    };
+                    let robust = tex.robust_crossing(origin, dir, sk, t_start, t_end, z_lo, z_hi);
+                    total += 1;
+                    if let Some(fast) =
+                        tex.fast_crossing(origin, dir, sk, t_start, t_end, z_lo, z_hi)
+                    {
+                        decided += 1;
+                        match (fast.map(|h| tex.fast_hit(origin, dir, h)), robust) {
+                            (None, None) => {}
+                            (Some(f), Some(r)) => {
+                                hits += 1;
+                                assert_eq!(f.facet, r.facet, "tile {n}, ray {k}");
+                                assert!((f.t - r.t).abs() <= 1e-12 * r.t.abs(), "tile {n}");
+                                assert_eq!(f.point, r.point, "tile {n}, ray {k}");
+                                assert_eq!(f.p_err, r.p_err, "tile {n}, ray {k}");
+                                assert_eq!(f.normal, r.normal, "tile {n}, ray {k}");
+                            }
+                            (f, r) => panic!("tile {n}, ray {k}: fast {f:?} vs robust {r:?}"),
+                        }
+                    }
+                    let Some(h) = robust else { break };
+                    // Leave by reflection or refraction (Snell; total internal reflection
+                    // from inside turns it back), as the tracer does.
+                    let k_dot_n = dir.dot(h.normal);
+                    let facing = if k_dot_n < 0.0 { h.normal } else { -h.normal };
+                    let cos_i = k_dot_n.abs().min(1.0);
+                    let eta = if above { 1.0 / n_si } else { n_si };
+                    let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
+                    let new_dir = if rng.uniform() < 0.5 || sin2_t >= 1.0 {
+                        dir - 2.0 * k_dot_n * h.normal
+                    } else {
+                        above = !above;
+                        (eta * dir + (eta * cos_i - (1.0 - sin2_t).sqrt()) * facing).normalize()
+                    };
+                    if new_dir.dot(h.normal).abs() < 1e-9 {
+                        break;
+                    }
+                    origin = offset_origin(h.point, h.p_err, h.normal, new_dir);
+                    dir = new_dir;
+                    skip = Some(h.facet);
+                }
+            }
+            let declined = total - decided;
+            assert!(
+                hits > total / 4 && (declined as f64) < 0.01 * total as f64,
+                "tile {n}: the fast path declined {declined} of {total} queries ({hits} hits)"
+            );
+        }
+    }
+
+    /// The fast path's walk visits the cells of `GridWalk` with the same t bounds.
+    #[test]
+    fn lean_walk_is_the_grid_walk() {
+        let mut rng = Stream::new(29, 0, 0);
+        for k in 0..2000 {
+            let mut d = if k % 3 == 0 {
+                rng.cosine_hemisphere()
+            } else {
+                rng.uniform_hemisphere()
+            };
+            if k % 2 == 0 {
+                d.z = -d.z;
+            }
+            if k % 7 == 0 {
+                d = Vec3::new(d.x, 0.0, d.z).normalize();
+            }
+            let o = Vec3::new(rng.uniform() * 9.0 - 1.0, rng.uniform() * 9.0 - 1.0, 0.5);
+            let (t0, t1) = (rng.uniform(), 2.0 + 30.0 * rng.uniform());
+            let grid: Vec<GridCell> = GridWalk::new(o, d, 0.7, t0, t1, 500).collect();
+            let lean: Vec<GridCell> = LeanWalk::new(o, d, 0.7, t0, t1, 500).collect();
+            assert_eq!(grid, lean, "ray {k}");
         }
     }
 
