@@ -535,9 +535,12 @@ impl AngleTable {
         const ONE: u64 = 0x3FF0_0000_0000_0000;
         const BELOW_ONE: f64 = 1.0 - f64::EPSILON / 2.0;
         const KEY: u64 = (1023 << RECORD_BITS) - 1;
-        // cos θ_i > 1 needs no clamp: v > 1 there, clamped below. (NaN stays NaN.)
-        let u = if cos_theta_i < 0.0 { 0.0 } else { cos_theta_i } - self.cos_crit;
-        let side = usize::from(u >= 0.0);
+        // No clamp of cos θ_i to [0, 1]: beyond either end of a side v > 1, clamped below;
+        // a side that is empty (inv_span 0, v = 0) leads to the other side's first cell at
+        // the critical angle (see `with_tolerance`), which is also where a negative cosine or
+        // −0 must go when c = 0. The side is the sign bit of u. (NaN stays NaN.)
+        let u = cos_theta_i - self.cos_crit;
+        let side = (u.to_bits() >> 63) as usize ^ 1;
         let v = u.abs() * self.inv_span[side];
         // (Written so that a NaN stays NaN, and so goes to the near zone.)
         let v = if v > BELOW_ONE { BELOW_ONE } else { v };
@@ -784,6 +787,16 @@ mod tests {
         let p = table.lookup(1.0);
         assert!((p.r_s - f.s.reflectance).abs() < 1e-13);
         assert!((p.t_p - f.p.transmittance).abs() < 1e-13);
+        // Out of range: a cosine below 0 (or −0) is grazing incidence, above 1 normal
+        // incidence, with and without a critical angle in the table.
+        for table in [table, AngleTable::build(&st.reversed(), 600.0)] {
+            let (grazing, normal) = (table.lookup(0.0), table.lookup(1.0));
+            for (x, at) in [(-0.0, grazing), (-0.25, grazing), (1.0 + 1e-9, normal)] {
+                let p = table.lookup(x);
+                assert!((p.r_s - at.r_s).abs() < 1e-12, "cos {x}: {p:?} vs {at:?}");
+                assert!((p.t_p - at.t_p).abs() < 1e-12, "cos {x}: {p:?} vs {at:?}");
+            }
+        }
     }
 
     #[test]
