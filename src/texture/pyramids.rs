@@ -21,7 +21,7 @@ use super::{
     snapped_err,
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
-use crate::geometry::grid::{GridCell, GridWalk};
+use crate::geometry::grid::GridWalk;
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
@@ -601,55 +601,9 @@ impl RegularPyramids {
         } else {
             Lean::new(rg, f64::INFINITY, FLAT_FACET, FLAT_FACET)
         };
-        // The cells along the ray: the walk of `GridWalk` (same cells, same boundary values
-        // bit for bit, each computed from its integer index), written out for this loop.
         let p = self.period;
-        let start = o + t_start * d;
-        let (mut ci, mut cj) = (
-            floor_i64(start.x * self.inv_period),
-            floor_i64(start.y * self.inv_period),
-        );
-        let (step_i, step_j) = (
-            if d.x > 0.0 { 1 } else { -1 },
-            if d.y > 0.0 { 1 } else { -1 },
-        );
-        let (up_i, up_j) = (i64::from(d.x > 0.0), i64::from(d.y > 0.0));
-        let (inv_dx, inv_dy) = (1.0 / d.x, 1.0 / d.y);
-        let boundary = |k: i64, o: f64, inv: f64, dv: f64| {
-            if dv == 0.0 {
-                f64::INFINITY
-            } else {
-                (k as f64 * p - o) * inv
-            }
-        };
-        let mut next_i = boundary(ci + up_i, o.x, inv_dx, d.x);
-        let mut next_j = boundary(cj + up_j, o.y, inv_dy, d.y);
-        let mut t0 = t_start;
-        let mut left = MAX_CELLS_PER_QUERY;
-        loop {
-            if left == 0 {
-                return None; // too many cells: the robust walk reports it
-            }
-            left -= 1;
-            let t_next = lesser(next_i, next_j);
-            let last = t_next >= t_end;
-            let t1 = greater(if last { t_end } else { t_next }, t0);
-            let cell = GridCell {
-                i: ci,
-                j: cj,
-                t0,
-                t1,
-            };
-            if !last {
-                if next_i <= next_j {
-                    ci += step_i;
-                    next_i = boundary(ci + up_i, o.x, inv_dx, d.x);
-                } else {
-                    cj += step_j;
-                    next_j = boundary(cj + up_j, o.y, inv_dy, d.y);
-                }
-                t0 = t1;
-            }
+        let mut walk = GridWalk::new(o, d, p, t_start, t_end, MAX_CELLS_PER_QUERY);
+        for cell in walk.by_ref() {
             let dx = (o.x - cell.i as f64 * p) - self.centre;
             let dy = (o.y - cell.j as f64 * p) - self.centre;
             let (u, v) = (tan * dx, tan * dy);
@@ -722,12 +676,7 @@ impl RegularPyramids {
             } else {
                 lean_exit(&spans, c0, c1, m, &e, pinned)?
             };
-            let Some((t, tag)) = crossing else {
-                if last {
-                    return Some(None);
-                }
-                continue;
-            };
+            let Some((t, tag)) = crossing else { continue };
             // Away from every other plane's root: not at an edge, valley, foot or rim.
             for (k, &rk) in r.iter().enumerate() {
                 if k as u32 != tag && (rk - t).abs() <= m {
@@ -736,6 +685,10 @@ impl RegularPyramids {
             }
             return Some(Some((t, cell.i, cell.j, tag)));
         }
+        if walk.exhausted() {
+            return None;
+        }
+        Some(None)
     }
 
     /// The robust walk (see the module docs of [`crate::texture`]): decides every case the

@@ -41,8 +41,8 @@ use super::{
     clamp_into, facet_hit, side_at_origin, side_outside_slab, slab_interval, snapped_err,
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
-use crate::geometry::grid::{GridCell, GridWalk};
-use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma};
+use crate::geometry::grid::GridWalk;
+use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::sampling::Stream;
 use crate::texture::pyramids::{check_angle, check_length};
 
@@ -777,19 +777,7 @@ impl RandomPyramids {
     #[inline(always)]
     fn query(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<(Option<u32>, [f64; 4])> {
         let (z_lo, z_hi) = (-self.pad, self.z_max + self.pad);
-        // `slab_interval`, its minima and maxima free of NaN handling (none can arise).
-        let (t_start, t_end) = if d.z == 0.0 {
-            slab_interval(o.z, d.z, z_lo, z_hi)?
-        } else {
-            let inv = 1.0 / d.z;
-            let (ta, tb) = ((z_lo - o.z) * inv, (z_hi - o.z) * inv);
-            let (t0, t1) = (max_of(min_of(ta, tb), 0.0), max_of(ta, tb));
-            let meets_slab = t0 <= t1; // false for NaN too
-            if !meets_slab {
-                return None;
-            }
-            (t0, t1)
-        };
+        let (t_start, t_end) = slab_interval(o.z, d.z, z_lo, z_hi)?;
         let n_facets = 1 + 4 * self.images.len() as u32;
         let skip = skip.map(|f| f.0).filter(|&f| f < n_facets);
         Some((skip, [t_start, t_end, z_lo, z_hi]))
@@ -867,7 +855,7 @@ impl RandomPyramids {
         };
         // The base plane: the gap of `Gap::new` with its on-plane rule, then its half-line.
         let oz_abs = o.z.abs();
-        let cg = if skip == Some(GROUND_FACET) || oz_abs <= max_of(gamma(6) * oz_abs, self.tol) {
+        let cg = if skip == Some(GROUND_FACET) || oz_abs <= greater(gamma(6) * oz_abs, self.tol) {
             0.0
         } else {
             o.z
@@ -916,7 +904,7 @@ impl RandomPyramids {
                 }
             }
         }
-        let walk = LeanWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY);
+        let walk = GridWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY);
         if above {
             self.fast_above::<COMMON>(&ray, walk, common)
         } else {
@@ -950,7 +938,7 @@ impl RandomPyramids {
                 };
                 let pinned = zero && it.image == ray.skip_image;
                 let sp = self.cone_tagged(&f, it, olx, oly, ray, pinned);
-                let inside = f.rate_min * min_of(x - sp.s, sp.e - x) > m;
+                let inside = f.rate_min * lesser(x - sp.s, sp.e - x) > m;
                 if inside && next.is_none_or(|(e, _)| sp.e > e) {
                     next = Some((sp.e, f.rate_min));
                 }
@@ -971,7 +959,7 @@ impl RandomPyramids {
     fn fast_above<const COMMON: bool>(
         &self,
         ray: &LeanRay,
-        walk: LeanWalk,
+        walk: GridWalk,
         common: &LeanFaces,
     ) -> Option<Option<FastHit<'_>>> {
         let (o, d) = (ray.o, ray.d);
@@ -981,7 +969,7 @@ impl RandomPyramids {
         for cell in walk {
             let (t0, t1) = (cell.t0, cell.t1);
             let (za, zb) = (o.z + t0 * d.z, o.z + t1 * d.z);
-            let z_min = min_of(za, zb);
+            let z_min = lesser(za, zb);
             let ((ti, li), (tj, lj)) = (tile_and_cell(cell.i, n), tile_and_cell(cell.j, n));
             let (items, [_, z_top]) = self.cell_items(li, lj);
             // Cells where the ray stays above the surface's height range.
@@ -998,21 +986,21 @@ impl RandomPyramids {
             let mut best_item: Option<&Item> = None;
             // Lowest point of the ray before the best entry so far.
             let mut z_far = z_min;
-            let t = max_of(ground_s, t0);
+            let t = greater(ground_s, t0);
             if t < ground_e && t <= t1 {
                 (best_t, best_s, best_e) = (t, ground_s, ground_e);
-                z_far = min_of(za, o.z + t * d.z);
+                z_far = lesser(za, o.z + t * d.z);
             }
             for it in items {
                 if it.top + margin < z_far {
                     break;
                 }
                 let (s, e, tag, rate) = self.bounds::<COMMON>(common, ray, it, olx, oly, zero)?;
-                let t = max_of(s, t0);
+                let t = greater(s, t0);
                 if t < e && t <= t1 && t < best_t {
                     (best_t, best_s, best_e, best_item) = (t, s, e, Some(it));
                     (best_tag, best_rate) = (tag, rate);
-                    z_far = min_of(za, o.z + t * d.z);
+                    z_far = lesser(za, o.z + t * d.z);
                 }
             }
             if best_t == f64::INFINITY {
@@ -1025,14 +1013,14 @@ impl RandomPyramids {
             // Deep enough inside that one solid (`excursion_depth` with the rates of the planes
             // bounding the span, each at least `best_rate`: the bound, when it suffices, says
             // the same), else the robust walk.
-            let until = min_of(best_e, t1);
+            let until = lesser(best_e, t1);
             let deep = 4.0 * self.depth;
             let deep_enough = best_rate * (until - best_s) > deep;
             if !deep_enough {
                 let it = best_item?;
                 let sp =
                     self.tagged::<COMMON>(common, ray, it, olx, oly, zero, (best_s, best_e))?;
-                let depth = min_of(sp.rs * (until - best_s), sp.re * (until - best_t));
+                let depth = lesser(sp.rs * (until - best_s), sp.re * (until - best_t));
                 let deep_enough = depth > deep;
                 if !deep_enough {
                     return None;
@@ -1054,7 +1042,7 @@ impl RandomPyramids {
     fn fast_below<const COMMON: bool>(
         &self,
         ray: &LeanRay,
-        walk: LeanWalk,
+        walk: GridWalk,
         common: &LeanFaces,
     ) -> Option<Option<FastHit<'_>>> {
         let (o, d) = (ray.o, ray.d);
@@ -1070,7 +1058,7 @@ impl RandomPyramids {
             let ((ti, li), (tj, lj)) = (tile_and_cell(cell.i, n), tile_and_cell(cell.j, n));
             let (items, [z_floor, _]) = self.cell_items(li, lj);
             // Cells where the ray stays below the surface's height range.
-            if max_of(za, zb) < z_floor - margin {
+            if greater(za, zb) < z_floor - margin {
                 continue;
             }
             let (tx, ty) = (ti as f64 * self.tile, tj as f64 * self.tile);
@@ -1084,7 +1072,7 @@ impl RandomPyramids {
             if x > t1 {
                 continue;
             }
-            let z_min = min_of(za, zb);
+            let z_min = lesser(za, zb);
             let mut m = 1;
             for (k, it) in items.iter().enumerate() {
                 if it.top + margin < z_min {
@@ -1224,8 +1212,8 @@ impl RandomPyramids {
                 3
             }
         };
-        let ts = first(std::array::from_fn(|k| min_of(r[k], c[k])), s);
-        let te = first(std::array::from_fn(|k| max_of(r[k], c[k])), e);
+        let ts = first(std::array::from_fn(|k| lesser(r[k], c[k])), s);
+        let te = first(std::array::from_fn(|k| greater(r[k], c[k])), e);
         let tag = 1 + 4 * it.image;
         Some(Lean {
             s,
@@ -1253,7 +1241,7 @@ impl RandomPyramids {
         let v = f.tan * (oly - it.cy);
         let h = it.height;
         let q = ray.o.z - h;
-        let err = max_of(
+        let err = greater(
             gamma(6) * (ray.oz_abs + h.abs() + u.abs() + v.abs()),
             self.tol,
         );
@@ -1344,17 +1332,17 @@ impl RandomPyramids {
         let c = &f.cap;
         // Latest start, its first face (as the chain of `Span::and`, pairwise), earliest end.
         let (s0, s1, s2, s3) = (
-            min_of(r[0], c[0]),
-            min_of(r[1], c[1]),
-            min_of(r[2], c[2]),
-            min_of(r[3], c[3]),
+            lesser(r[0], c[0]),
+            lesser(r[1], c[1]),
+            lesser(r[2], c[2]),
+            lesser(r[3], c[3]),
         );
         let (sa, ka) = if s1 > s0 { (s1, 1) } else { (s0, 0) };
         let (sb, kb) = if s3 > s2 { (s3, 3) } else { (s2, 2) };
         let (s, ks) = if sb > sa { (sb, kb) } else { (sa, ka) };
-        let e = min_of(
-            min_of(max_of(r[0], c[0]), max_of(r[1], c[1])),
-            min_of(max_of(r[2], c[2]), max_of(r[3], c[3])),
+        let e = lesser(
+            lesser(greater(r[0], c[0]), greater(r[1], c[1])),
+            lesser(greater(r[2], c[2]), greater(r[3], c[3])),
         );
         Some((s, e, 1 + 4 * it.image + ks))
     }
@@ -1390,11 +1378,11 @@ impl RandomPyramids {
         let (mut s, mut ts) = (f64::NEG_INFINITY, 0);
         let (mut e, mut te) = (f64::INFINITY, 0);
         for (k, (&rk, &ck)) in r.iter().zip(&f.cap).enumerate() {
-            let sk = min_of(rk, ck);
+            let sk = lesser(rk, ck);
             if k == 0 || sk > s {
                 (s, ts) = (sk, k);
             }
-            let ek = max_of(rk, ck);
+            let ek = greater(rk, ck);
             if k == 0 || ek < e {
                 (e, te) = (ek, k);
             }
@@ -1658,7 +1646,7 @@ impl LeanFaces {
             tan,
             ninv: e.map(|v| -(1.0 / v)),
             rate,
-            rate_min: min_of(min_of(rate[0], rate[1]), min_of(rate[2], rate[3])),
+            rate_min: lesser(lesser(rate[0], rate[1]), lesser(rate[2], rate[3])),
             cap: e.map(|v| f64::INFINITY.copysign(-v)),
         })
     }
@@ -1692,7 +1680,7 @@ struct LeanRay {
 #[inline(always)]
 fn clear_of_planes(q: f64, u: f64, v: f64, err: f64) -> bool {
     let aq = q.abs();
-    min_of((aq - u.abs()).abs(), (aq - v.abs()).abs()) > err
+    lesser((aq - u.abs()).abs(), (aq - v.abs()).abs()) > err
 }
 
 /// Roots −c/e of the four face gaps c = q ± u, q ± v along the ray (as −c·(1/e)).
@@ -1706,18 +1694,6 @@ fn face_roots(f: &LeanFaces, q: f64, u: f64, v: f64) -> [f64; 4] {
     ]
 }
 
-/// The smaller of two numbers, neither NaN (one `minsd`; `f64::min` also handles NaN).
-#[inline(always)]
-fn min_of(a: f64, b: f64) -> f64 {
-    if a < b { a } else { b }
-}
-
-/// The larger of two numbers, neither NaN.
-#[inline(always)]
-fn max_of(a: f64, b: f64) -> f64 {
-    if a > b { a } else { b }
-}
-
 /// A span [s, e) of the ray parameter with the planes bounding it and |dG/dt| of each (the
 /// fast path's light counterpart of [`Span`]; empty when s ≥ e).
 #[derive(Clone, Copy, Debug)]
@@ -1728,107 +1704,6 @@ struct Lean {
     te: u32,
     rs: f64,
     re: f64,
-}
-
-/// The cells of [`GridWalk`] along a ray, with the same indices and the same t bounds to the
-/// bit (the same operations; minima and maxima without NaN handling, none can arise), for the
-/// fast path: the walk's state stays in registers. Test: `lean_walk_is_the_grid_walk`.
-#[derive(Clone, Debug)]
-struct LeanWalk {
-    cell: f64,
-    ox: f64,
-    oy: f64,
-    inv_dx: f64,
-    inv_dy: f64,
-    i: i64,
-    j: i64,
-    step_i: i64,
-    step_j: i64,
-    t_next_i: f64,
-    t_next_j: f64,
-    t: f64,
-    t_end: f64,
-    left: usize,
-}
-
-impl LeanWalk {
-    /// As [`GridWalk::new`].
-    #[inline(always)]
-    fn new(o: Vec3, d: Vec3, cell: f64, t_start: f64, t_end: f64, max_cells: usize) -> Self {
-        let p = o + t_start * d;
-        let inv_cell = 1.0 / cell;
-        let i = floor_i64(p.x * inv_cell);
-        let j = floor_i64(p.y * inv_cell);
-        let (step_i, step_j) = (
-            if d.x > 0.0 { 1 } else { -1 },
-            if d.y > 0.0 { 1 } else { -1 },
-        );
-        let (inv_dx, inv_dy) = (1.0 / d.x, 1.0 / d.y);
-        let t_next_i = Self::boundary(i, step_i, cell, o.x, d.x, inv_dx);
-        let t_next_j = Self::boundary(j, step_j, cell, o.y, d.y, inv_dy);
-        LeanWalk {
-            cell,
-            ox: o.x,
-            oy: o.y,
-            inv_dx,
-            inv_dy,
-            i,
-            j,
-            step_i,
-            step_j,
-            t_next_i,
-            t_next_j,
-            t: t_start,
-            t_end,
-            left: if t_start > t_end { 0 } else { max_cells },
-        }
-    }
-
-    /// Parameter where the ray crosses the next wall of cell `i` along one axis.
-    #[inline(always)]
-    fn boundary(i: i64, step: i64, cell: f64, o: f64, d: f64, inv_d: f64) -> f64 {
-        if d == 0.0 {
-            return f64::INFINITY;
-        }
-        let k = if step > 0 { i + 1 } else { i };
-        (k as f64 * cell - o) * inv_d
-    }
-}
-
-impl Iterator for LeanWalk {
-    type Item = GridCell;
-
-    #[inline(always)]
-    fn next(&mut self) -> Option<GridCell> {
-        if self.left == 0 {
-            return None;
-        }
-        self.left -= 1;
-        let t0 = self.t;
-        let t_next = min_of(self.t_next_i, self.t_next_j);
-        let (i, j) = (self.i, self.j);
-        if t_next >= self.t_end {
-            self.left = 0;
-            return Some(GridCell {
-                i,
-                j,
-                t0,
-                t1: max_of(self.t_end, t0),
-            });
-        }
-        let t1 = max_of(t_next, t0);
-        if self.t_next_i <= self.t_next_j {
-            self.i += self.step_i;
-            self.t_next_i =
-                Self::boundary(self.i, self.step_i, self.cell, self.ox, 1.0, self.inv_dx);
-        } else {
-            self.j += self.step_j;
-            self.t_next_j =
-                Self::boundary(self.j, self.step_j, self.cell, self.oy, 1.0, self.inv_dy);
-        }
-        self.t = t1;
-        Some(GridCell { i, j, t0, t1 })
-    }
 }
 
 /// Tile index and cell within the tile of grid cell `g` (n cells per tile): the Euclidean
@@ -2040,30 +1915,6 @@ mod tests {
                 hits > total / 4 && (declined as f64) < 0.01 * total as f64,
                 "tile {n}: the fast path declined {declined} of {total} queries ({hits} hits)"
             );
-        }
-    }
-
-    /// The fast path's walk visits the cells of `GridWalk` with the same t bounds.
-    #[test]
-    fn lean_walk_is_the_grid_walk() {
-        let mut rng = Stream::new(29, 0, 0);
-        for k in 0..2000 {
-            let mut d = if k % 3 == 0 {
-                rng.cosine_hemisphere()
-            } else {
-                rng.uniform_hemisphere()
-            };
-            if k % 2 == 0 {
-                d.z = -d.z;
-            }
-            if k % 7 == 0 {
-                d = Vec3::new(d.x, 0.0, d.z).normalize();
-            }
-            let o = Vec3::new(rng.uniform() * 9.0 - 1.0, rng.uniform() * 9.0 - 1.0, 0.5);
-            let (t0, t1) = (rng.uniform(), 2.0 + 30.0 * rng.uniform());
-            let grid: Vec<GridCell> = GridWalk::new(o, d, 0.7, t0, t1, 500).collect();
-            let lean: Vec<GridCell> = LeanWalk::new(o, d, 0.7, t0, t1, 500).collect();
-            assert_eq!(grid, lean, "ray {k}");
         }
     }
 
