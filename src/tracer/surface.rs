@@ -120,7 +120,9 @@ pub struct Surface<'a> {
 /// A ray in flight.
 #[derive(Clone, Copy, Debug)]
 pub struct Ray {
+    /// Start point, µm (inside `follow`, after an event: the hit point on the facet left).
     pub origin: Vec3,
+    /// Unit direction.
     pub dir: Vec3,
     pub pol: Polarised,
     /// Facet just left, in the origin's cell frame.
