@@ -217,9 +217,9 @@ pub fn run(args: CompareArgs) -> Result<(), Failure> {
                 a.j_ma_cm2,
                 a.std_error_ma_cm2,
                 r.weighted_reflectance,
-                g[1],
-                g[2],
-                g[3]
+                lightfold::report::shown(g[1], 3),
+                lightfold::report::shown(g[2], 3),
+                lightfold::report::shown(g[3], 3)
             );
         }
         println!(

@@ -86,7 +86,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         println!(
             "  photocurrent in {:<28} {:>8.3} ± {:.3}{} mA/cm²",
             a.name,
-            a.j_ma_cm2,
+            lightfold::report::shown(a.j_ma_cm2, 3),
             a.std_error_ma_cm2,
             binning(a.binning_error_ma_cm2)
         );
@@ -94,7 +94,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
             println!(
                 "  {:<43} {:>8.3} ± {:.3}{} mA/cm²",
                 l.name,
-                l.j_ma_cm2,
+                lightfold::report::shown(l.j_ma_cm2, 3),
                 l.std_error_ma_cm2,
                 binning(l.binning_error_ma_cm2)
             );

@@ -406,15 +406,16 @@ fn table_text(
             r.wavelength_nm,
             r.angle_deg,
             r.rays,
-            r.reflectance,
+            lightfold::report::shown(r.reflectance, 5),
             r.reflectance_se,
-            r.transmittance,
+            lightfold::report::shown(r.transmittance, 5),
             r.transmittance_se
         );
         for j in 0..films.len() {
             line.push_str(&format!(
                 " {:>9.5} ± {:.5}",
-                r.film_absorptance[j], r.film_absorptance_se[j]
+                lightfold::report::shown(r.film_absorptance[j], 5),
+                r.film_absorptance_se[j]
             ));
         }
         line.push_str(&format!(

@@ -113,3 +113,28 @@ pub fn to_json_pretty<T: serde::Serialize + ?Sized>(
     text.push('\n');
     Ok(text)
 }
+
+/// `v` for display with `decimals` decimals: a value that rounds to zero there is shown as
+/// 0, not as "-0.000" (a tiny negative film absorptance comes from the angle tables'
+/// interpolation error, bounded by 1e-5; the data files keep the value as computed).
+pub fn shown(v: f64, decimals: i32) -> f64 {
+    if v.abs() < 0.5 * 10f64.powi(-decimals) {
+        0.0
+    } else {
+        v
+    }
+}
+
+#[cfg(test)]
+mod shown_tests {
+    use super::shown;
+
+    #[test]
+    fn values_that_round_to_zero_are_shown_as_zero_not_minus_zero() {
+        assert_eq!(format!("{:.5}", shown(-3e-9, 5)), "0.00000");
+        assert_eq!(format!("{:.3}", shown(-0.0, 3)), "0.000");
+        // Anything visible at that precision keeps its sign.
+        assert_eq!(format!("{:.3}", shown(-0.002, 3)), "-0.002");
+        assert_eq!(format!("{:.5}", shown(0.012_34, 5)), "0.01234");
+    }
+}

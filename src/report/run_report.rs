@@ -352,7 +352,11 @@ pub fn write_run(
                 "{:.3} ± {:.3} mA/cm² (Monte Carlo σ); binning error estimate ±{b:.3} mA/cm²",
                 a.j_ma_cm2, a.std_error_ma_cm2
             ),
-            None => format!("{:.3} ± {:.3} mA/cm²", a.j_ma_cm2, a.std_error_ma_cm2),
+            None => format!(
+                "{:.3} ± {:.3} mA/cm²",
+                super::shown(a.j_ma_cm2, 3),
+                a.std_error_ma_cm2
+            ),
         },
     )];
     if let Some(b) = &r.binning {
@@ -403,7 +407,11 @@ pub fn write_run(
     );
     let binning = r.binning.is_some();
     let row = |name: String, j: f64, se: f64, b: Option<f64>| {
-        let mut v = vec![name, format!("{j:.3}"), format!("{se:.3}")];
+        let mut v = vec![
+            name,
+            format!("{:.3}", super::shown(j, 3)),
+            format!("{se:.3}"),
+        ];
         if binning {
             v.push(b.map_or("—".into(), |b| format!("{b:.3}")));
         }
