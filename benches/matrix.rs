@@ -7,21 +7,29 @@ use lightfold::redistribution::{
     AngleBins, InterfaceMatrices, InterfaceResponse, InterfaceSetup, MediumInfo, Side,
 };
 use lightfold::texture::Symmetry;
+use lightfold::thinfilm::Side as FilmSide;
+use lightfold::tracer::{BareInterface, FacetResponse};
 use lightfold::wafer::{
     BinningCheck, SemiInfinite, SolverOptions, Stack, StackElement, ThickLayer,
 };
 use num_complex::Complex64;
 
-/// Unpolarised Fresnel reflectance between real indices (Born & Wolf, 7th ed., §1.5.2).
-fn fresnel(cos_i: f64, n_i: f64, n_t: f64) -> f64 {
-    let s_t2 = (n_i / n_t).powi(2) * (1.0 - cos_i * cos_i);
-    if s_t2 >= 1.0 {
-        return 1.0;
+/// Bare interface between `na` above and `nb` below, unpolarised Fresnel split (the
+/// tracer's closed form).
+fn fresnel_split(na: f64, nb: f64) -> impl Fn(f64, Side) -> InterfaceResponse {
+    let bare = BareInterface {
+        n_above: na,
+        n_below: nb,
+    };
+    move |c, side| {
+        let from = match side {
+            Side::Above => FilmSide::Above,
+            Side::Below => FilmSide::Below,
+        };
+        let [rs, rp, ..] = bare.power(from, c, 1.0);
+        let r = 0.5 * (rs + rp);
+        InterfaceResponse::lossless(r, 1.0 - r)
     }
-    let cos_t = (1.0 - s_t2).sqrt();
-    let rs = (n_i * cos_i - n_t * cos_t) / (n_i * cos_i + n_t * cos_t);
-    let rp = (n_t * cos_i - n_i * cos_t) / (n_t * cos_i + n_i * cos_t);
-    0.5 * (rs * rs + rp * rp)
 }
 
 fn bins(np: usize, na: usize) -> AngleBins {
@@ -44,32 +52,14 @@ fn setup(b: &AngleBins, na: f64, nb: f64) -> InterfaceSetup {
 }
 
 fn planar(b: &AngleBins, na: f64, nb: f64) -> InterfaceMatrices {
-    InterfaceMatrices::planar(setup(b, na, nb), move |c, side| {
-        let (ni, nt) = if side == Side::Above {
-            (na, nb)
-        } else {
-            (nb, na)
-        };
-        let r = fresnel(c, ni, nt);
-        InterfaceResponse::lossless(r, 1.0 - r)
-    })
-    .unwrap()
+    InterfaceMatrices::planar(setup(b, na, nb), fresnel_split(na, nb)).unwrap()
 }
 
 /// Dense front (ideal Lambertian with Fresnel split) over 160 µm silicon and a planar rear
 /// into air: the dense case a textured front produces.
 fn stack(b: &AngleBins) -> Stack {
     let n = 3.6;
-    let front = InterfaceMatrices::lambertian(setup(b, 1.0, n), move |c, side| {
-        let (ni, nt) = if side == Side::Above {
-            (1.0, n)
-        } else {
-            (n, 1.0)
-        };
-        let r = fresnel(c, ni, nt);
-        InterfaceResponse::lossless(r, 1.0 - r)
-    })
-    .unwrap();
+    let front = InterfaceMatrices::lambertian(setup(b, 1.0, n), fresnel_split(1.0, n)).unwrap();
     let medium = |id: &str| {
         StackElement::Medium(SemiInfinite {
             id: id.into(),

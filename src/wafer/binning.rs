@@ -243,20 +243,10 @@ mod tests {
     use super::*;
     use crate::redistribution::{InterfaceMatrices, InterfaceResponse, InterfaceSetup, MediumInfo};
     use crate::texture::Symmetry;
+    use crate::thinfilm::Side as FilmSide;
+    use crate::tracer::{BareInterface, FacetResponse};
     use crate::wafer::{SemiInfinite, ThickLayer};
     use num_complex::Complex64;
-
-    /// Unpolarised Fresnel reflectance between real indices (Born & Wolf, 7th ed., §1.5.2).
-    fn fresnel(cos_i: f64, n_i: f64, n_t: f64) -> f64 {
-        let s_t2 = (n_i / n_t).powi(2) * (1.0 - cos_i * cos_i);
-        if s_t2 >= 1.0 {
-            return 1.0;
-        }
-        let cos_t = (1.0 - s_t2).sqrt();
-        let rs = (n_i * cos_i - n_t * cos_t) / (n_i * cos_i + n_t * cos_t);
-        let rp = (n_t * cos_i - n_i * cos_t) / (n_t * cos_i + n_i * cos_t);
-        0.5 * (rs * rs + rp * rp)
-    }
 
     fn bins(p: usize) -> AngleBins {
         let mut edges = vec![0.0, 1e-12];
@@ -276,14 +266,19 @@ mod tests {
             below: MediumInfo::new("b", nb),
             film_layers: vec![],
         };
+        // Bare Fresnel split, unpolarised (the tracer's closed form).
         let split = move |na: f64, nb: f64| {
+            let bare = BareInterface {
+                n_above: na,
+                n_below: nb,
+            };
             move |c: f64, side: crate::redistribution::Side| {
-                let (ni, nt) = if side == crate::redistribution::Side::Above {
-                    (na, nb)
-                } else {
-                    (nb, na)
+                let from = match side {
+                    crate::redistribution::Side::Above => FilmSide::Above,
+                    crate::redistribution::Side::Below => FilmSide::Below,
                 };
-                let r = fresnel(c, ni, nt);
+                let [rs, rp, ..] = bare.power(from, c, 1.0);
+                let r = 0.5 * (rs + rp);
                 InterfaceResponse::lossless(r, 1.0 - r)
             }
         };
