@@ -320,6 +320,26 @@ mod tests {
     use crate::texture::{Planar, RegularPyramids};
     use crate::tracer::{BareInterface, FacetResponse, PolarisationMode};
 
+    /// Upright 2 µm pyramids, bare, between n = 1 and 3.5.
+    fn bare_pyramids() -> (RegularPyramids, BareInterface) {
+        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
+        let resp = BareInterface {
+            n_above: 1.0,
+            n_below: 3.5,
+        };
+        (tex, resp)
+    }
+
+    fn stokes_surface<'a>(tex: &'a RegularPyramids, resp: &'a BareInterface) -> Surface<'a> {
+        Surface {
+            texture: tex,
+            response: resp,
+            n_above: resp.n_above,
+            n_below: resp.n_below,
+            polarisation: PolarisationMode::Stokes,
+        }
+    }
+
     fn setup(bins: AngleBins, na: f64, nb: f64) -> InterfaceSetup {
         InterfaceSetup {
             bins,
@@ -400,18 +420,8 @@ mod tests {
         assert_eq!(replica_count(5000, MAX_REPLICAS), 4);
         assert_eq!(replica_count(5000, 1), 0);
         let bins = AngleBins::equal_etendue(3, 1, Symmetry::Isotropic).unwrap();
-        let resp = BareInterface {
-            n_above: 1.0,
-            n_below: 3.5,
-        };
-        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
-        let surf = Surface {
-            texture: &tex,
-            response: &resp,
-            n_above: 1.0,
-            n_below: 3.5,
-            polarisation: PolarisationMode::Stokes,
-        };
+        let (tex, resp) = bare_pyramids();
+        let surf = stokes_surface(&tex, &resp);
         let s = || setup(bins.clone(), 1.0, 3.5);
         let plain = textured_matrices(&surf, s(), 5000, 4, 7).unwrap();
         let rep = textured_matrices_with_replicas(&surf, s(), 5000, 4, 7, MAX_REPLICAS).unwrap();
@@ -443,18 +453,8 @@ mod tests {
     #[test]
     fn results_do_not_depend_on_thread_count_and_bad_setups_are_refused() {
         let bins = AngleBins::equal_etendue(3, 2, Symmetry::Square).unwrap();
-        let resp = BareInterface {
-            n_above: 1.0,
-            n_below: 3.5,
-        };
-        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(2.0)).unwrap();
-        let surf = Surface {
-            texture: &tex,
-            response: &resp,
-            n_above: 1.0,
-            n_below: 3.5,
-            polarisation: PolarisationMode::Stokes,
-        };
+        let (tex, resp) = bare_pyramids();
+        let surf = stokes_surface(&tex, &resp);
         let run = |threads: usize| {
             rayon::ThreadPoolBuilder::new()
                 .num_threads(threads)
