@@ -398,3 +398,133 @@ fn directional_coating_thickness_follows_each_textures_facet_tilt() {
         );
     }
 }
+
+/// `n` rays traced one at a time (no ray packets), chunk by chunk as `Surface::trace` does.
+fn trace_one_at_a_time(surf: &Surface, inc: &Incidence, rays: u64, seed: u64) -> Tally {
+    let chunk = lightfold::tracer::RAYS_PER_CHUNK;
+    let mut tally = Tally::default();
+    for c in 0..rays.div_ceil(chunk) {
+        let mut rng = lightfold::sampling::Stream::new(seed, 1, c);
+        let part = surf.trace_chunk_one_at_a_time::<()>(inc, chunk.min(rays - c * chunk), &mut rng);
+        tally.merge(&part.0);
+    }
+    tally
+}
+
+/// |a − b| within 4.5 combined standard errors of two independent estimates.
+fn agree(a: lightfold::tracer::Estimate, b: lightfold::tracer::Estimate, what: &str) {
+    let tol = 4.5 * (a.std_error.powi(2) + b.std_error.powi(2)).sqrt() + 1e-12;
+    assert!(
+        (a.value - b.value).abs() <= tol,
+        "{what}: packets {} ± {}, one at a time {} ± {}",
+        a.value,
+        a.std_error,
+        b.value,
+        b.std_error
+    );
+}
+
+#[test]
+fn ray_packets_agree_with_rays_traced_one_at_a_time() {
+    // Upright pyramids are traced four rays at a time (tracer::packet) with their own random
+    // numbers; the physics must be that of the one-ray tracer. Independent runs of both,
+    // compared within their standard errors, for: bare facets with unpolarised light (the
+    // lane-wise event path), coated facets with Stokes tracking on a rotated lattice with
+    // flat gaps (the general event path and the robust walk for the ground), and light
+    // from inside (isotropic launch).
+    let touching = RegularPyramids::new(RegularPyramidsSpec::upright(5.0)).unwrap();
+    let gapped = RegularPyramids::new(RegularPyramidsSpec {
+        period_um: 6.5,
+        rotation_deg: 30.0,
+        ..RegularPyramidsSpec::upright(5.0)
+    })
+    .unwrap();
+    let stack = FilmStack::new(
+        Complex64::new(1.0, 0.0),
+        vec![
+            Layer::new(Complex64::new(2.05, 0.01), 75.0),
+            Layer::new(Complex64::new(1.5, 0.001), 10.0),
+        ],
+        Complex64::new(N_SI, 0.0),
+    )
+    .unwrap();
+    let coated = CoatedInterface::new(&stack, 450.0, CoatingGeometry::Conformal, &[]).unwrap();
+    let bare = BareInterface {
+        n_above: 1.0,
+        n_below: N_SI,
+    };
+    let normal = Incidence::Above {
+        theta: 0.0,
+        phi: 0.0,
+        polarisation: InputPolarisation::Unpolarised,
+    };
+    let oblique = Incidence::Above {
+        theta: 0.6,
+        phi: 0.4,
+        polarisation: InputPolarisation::S,
+    };
+    let cases: [(
+        &RegularPyramids,
+        &dyn lightfold::tracer::FacetResponse,
+        Incidence,
+        PolarisationMode,
+    ); 4] = [
+        (&touching, &bare, normal, PolarisationMode::Unpolarised),
+        (&touching, &coated, oblique, PolarisationMode::Unpolarised),
+        (&gapped, &coated, oblique, PolarisationMode::Stokes),
+        (
+            &touching,
+            &bare,
+            Incidence::BelowIsotropic,
+            PolarisationMode::Stokes,
+        ),
+    ];
+    for (k, (tex, resp, inc, mode)) in cases.into_iter().enumerate() {
+        let surf = Surface {
+            texture: tex,
+            response: resp,
+            n_above: 1.0,
+            n_below: N_SI,
+            polarisation: mode,
+        };
+        let rays = 120_000;
+        let packets = surf.trace::<()>(&inc, rays, 11, 1).0;
+        let single = trace_one_at_a_time(&surf, &inc, rays, 12);
+        let case = format!("case {k}");
+        assert_eq!(packets.rays, rays);
+        assert_eq!(packets.lost_rays + single.lost_rays, 0, "{case}: lost rays");
+        assert!(packets.energy_error() < 1e-9, "{case}: energy");
+        agree(
+            packets.reflectance(),
+            single.reflectance(),
+            &format!("{case} R"),
+        );
+        agree(
+            packets.transmittance(),
+            single.transmittance(),
+            &format!("{case} T"),
+        );
+        for j in 0..resp.n_layers() {
+            agree(
+                packets.film_absorptance(j),
+                single.film_absorptance(j),
+                &format!("{case} film {j}"),
+            );
+        }
+        // Facet hits per ray: the fraction of rays with 1, 2 and 3 hits (binomial errors).
+        for h in 1..4 {
+            let frac = |t: &Tally| {
+                let p = t.hits[h] as f64 / t.rays as f64;
+                lightfold::tracer::Estimate {
+                    value: p,
+                    std_error: (p * (1.0 - p) / t.rays as f64).sqrt(),
+                }
+            };
+            agree(
+                frac(&packets),
+                frac(&single),
+                &format!("{case} rays with {h} hits"),
+            );
+        }
+    }
+}

@@ -7,6 +7,7 @@
 
 pub mod crossing;
 pub mod grid;
+pub mod lanes;
 pub mod robust;
 pub mod triangle;
 

@@ -22,6 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
+use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
@@ -86,6 +87,8 @@ pub struct RegularPyramids {
     planes: [HeightPlane; 5],
     /// Up normals in the lab frame.
     normals: [Vec3; 5],
+    /// Up normals in the lattice frame.
+    lattice_normals: [Vec3; 5],
     rotated: bool,
     cos_r: f64,
     sin_r: f64,
@@ -221,6 +224,7 @@ impl RegularPyramids {
             centre,
             planes,
             normals,
+            lattice_normals: planes.map(|p| p.normal()),
             rotated,
             cos_r,
             sin_r,
@@ -439,7 +443,7 @@ impl RegularPyramids {
         if self.spec.inverted {
             return None;
         }
-        let (tan, m, p) = (self.tan, self.margin, self.period);
+        let (tan, m) = (self.tan, self.margin);
         let (sx, sy) = (tan * d.x, tan * d.y);
         let e = [d.z + sx, d.z - sx, d.z + sy, d.z - sy];
         if d.z == 0.0 || e.contains(&0.0) {
@@ -499,52 +503,64 @@ impl RegularPyramids {
                 (x.is_finite() && ray.clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
             }
             Some(k) if k < FLAT_FACET && self.touching && z_lo <= o.z && o.z <= z_hi => {
-                // Out of the pyramid (e_k > 0): from cell to cell (its own cone is behind
-                // it, and no ground is exposed between touching pyramids), while it passes
-                // clearly over the edges and clearly misses the cones; a few cells at most.
-                let t_top = if d.z > 0.0 {
-                    (z_hi - o.z) * iz
-                } else {
-                    f64::INFINITY
-                };
-                let to_edge = |c: i64, x: f64, dx: f64| {
-                    if dx > 0.0 {
-                        ((c + 1) as f64 * p - x) / dx
-                    } else if dx < 0.0 {
-                        (c as f64 * p - x) / dx
-                    } else {
-                        f64::INFINITY
-                    }
-                };
-                let (mut i, mut j) = (0i64, 0i64);
-                for _ in 0..4 {
-                    let (tx, ty) = (to_edge(i, o.x, d.x), to_edge(j, o.y, d.y));
-                    let edge = lesser(tx, ty);
-                    if t_top < edge - m {
-                        return Some(None); // out of the slab first
-                    }
-                    if !exceeds(edge, m) || (tx - ty).abs() <= m || !exceeds(o.z + d.z * edge, m) {
-                        return None; // at a corner, or low at the edge (a valley)
-                    }
-                    if tx < ty {
-                        i += if d.x > 0.0 { 1 } else { -1 };
-                    } else {
-                        j += if d.y > 0.0 { 1 } else { -1 };
-                    }
-                    let r = ray.roots(self, i, j);
-                    let (s, _, end, _) = ray.cone(&r);
-                    if s < end - m {
-                        let (s, ts) = ray.entry(&r, edge)?;
-                        return Some(Some((s, i, j, ts)));
-                    }
-                    if !exceeds(s, end + m) {
-                        return None; // grazing the cone
-                    }
-                }
-                None
+                self.off_touching(&ray, z_hi, iz)
             }
             _ => None,
         }
+    }
+
+    /// [`Self::convex_crossing`] for a ray leaving a face of a touching pyramid outward
+    /// (e_k > 0): from cell to cell (its own cone is behind it, and no ground is exposed
+    /// between touching pyramids), while it passes clearly over the edges and clearly misses
+    /// the cones; a few cells at most. `iz` = 1/d.z.
+    #[inline(always)]
+    fn off_touching(
+        &self,
+        ray: &ConeRay,
+        z_hi: f64,
+        iz: f64,
+    ) -> Option<Option<(f64, i64, i64, u32)>> {
+        let (o, d, m, p) = (ray.o, ray.d, ray.m, self.period);
+        let t_top = if d.z > 0.0 {
+            (z_hi - o.z) * iz
+        } else {
+            f64::INFINITY
+        };
+        let to_edge = |c: i64, x: f64, dx: f64| {
+            if dx > 0.0 {
+                ((c + 1) as f64 * p - x) / dx
+            } else if dx < 0.0 {
+                (c as f64 * p - x) / dx
+            } else {
+                f64::INFINITY
+            }
+        };
+        let (mut i, mut j) = (0i64, 0i64);
+        for _ in 0..4 {
+            let (tx, ty) = (to_edge(i, o.x, d.x), to_edge(j, o.y, d.y));
+            let edge = lesser(tx, ty);
+            if t_top < edge - m {
+                return Some(None); // out of the slab first
+            }
+            if !exceeds(edge, m) || (tx - ty).abs() <= m || !exceeds(o.z + d.z * edge, m) {
+                return None; // at a corner, or low at the edge (a valley)
+            }
+            if tx < ty {
+                i += if d.x > 0.0 { 1 } else { -1 };
+            } else {
+                j += if d.y > 0.0 { 1 } else { -1 };
+            }
+            let r = ray.roots(self, i, j);
+            let (s, _, end, _) = ray.cone(&r);
+            if s < end - m {
+                let (s, ts) = ray.entry(&r, edge)?;
+                return Some(Some((s, i, j, ts)));
+            }
+            if !exceeds(s, end + m) {
+                return None; // grazing the cone
+            }
+        }
+        None
     }
 
     /// Closed-form crossing for the common case, in the lattice frame: `Some(Some((t, i, j,
@@ -795,6 +811,296 @@ impl RegularPyramids {
             g[k as usize] = g[k as usize].on_plane();
         }
         g
+    }
+}
+
+/// `Packet::skip` of a ray entering from outside the slab (no facet left).
+pub const NO_FACET: u32 = u32::MAX;
+
+/// [`LANES`] rays for one query each, in the lattice frame: origins in the unit cell
+/// [0, p)² (on the facet just left, or above the slab for a ray entering it), unit
+/// directions, and the facet left.
+#[derive(Clone, Copy, Debug)]
+pub struct Packet {
+    pub ox: [f64; LANES],
+    pub oy: [f64; LANES],
+    pub oz: [f64; LANES],
+    pub dx: [f64; LANES],
+    pub dy: [f64; LANES],
+    pub dz: [f64; LANES],
+    /// Facet left (≤ [`FLAT_FACET`]), or [`NO_FACET`].
+    pub skip: [u32; LANES],
+}
+
+impl Default for Packet {
+    fn default() -> Self {
+        Packet {
+            ox: [0.0; LANES],
+            oy: [0.0; LANES],
+            oz: [1.0; LANES],
+            dx: [0.0; LANES],
+            dy: [0.0; LANES],
+            dz: [-1.0; LANES],
+            skip: [NO_FACET; LANES],
+        }
+    }
+}
+
+/// Answers of [`RegularPyramids::cross_packet`], per lane: whether the ray crosses the
+/// surface (then where, in the lattice frame, wrapped into the unit cell and snapped onto
+/// the facet's plane, and on which facet) or leaves the slab first. A lane with neither
+/// flag was too close to an edge, wall or plane to decide there: [`Texture::intersect`] or
+/// [`Texture::intersect_after`] (the robust walk) must answer it.
+#[derive(Clone, Copy, Debug)]
+pub struct Crossings {
+    pub crosses: M,
+    pub leaves: M,
+    pub face: [u32; LANES],
+    pub x: [f64; LANES],
+    pub y: [f64; LANES],
+    pub z: [f64; LANES],
+}
+
+impl RegularPyramids {
+    /// Whether [`Self::cross_packet`] serves this texture (upright pyramids; inverted ones
+    /// are traced one ray at a time).
+    pub fn has_packet_path(&self) -> bool {
+        !self.spec.inverted
+    }
+
+    /// Lab-frame vector → lattice frame.
+    #[inline]
+    pub fn lab_to_lattice(&self, v: Vec3) -> Vec3 {
+        self.to_lattice(v)
+    }
+
+    /// Lattice-frame vector → lab frame.
+    #[inline]
+    pub fn lattice_to_lab(&self, v: Vec3) -> Vec3 {
+        if self.rotated {
+            let (c, s) = (self.cos_r, self.sin_r);
+            Vec3::new(c * v.x - s * v.y, s * v.x + c * v.y, v.z)
+        } else {
+            v
+        }
+    }
+
+    /// A lab-frame point of the unit cell (e.g. a hit point) in lattice coordinates, kept
+    /// inside [0, p)² against rounding in the rotation.
+    #[inline]
+    pub fn home(&self, lab: Vec3) -> Vec3 {
+        let v = self.to_lattice(lab);
+        Vec3::new(
+            clamp_into(v.x, self.period).0,
+            clamp_into(v.y, self.period).0,
+            v.z,
+        )
+    }
+
+    /// The last coordinate below the period (the far edge of the unit cell), µm.
+    #[inline]
+    pub fn period_below(&self) -> f64 {
+        self.period_below
+    }
+
+    /// Up normal of `facet` in the lattice frame.
+    #[inline]
+    pub fn lattice_normal(&self, facet: u32) -> Vec3 {
+        self.lattice_normals[facet as usize]
+    }
+
+    /// Height of `facet`'s plane at lattice-frame (x, y): a point snapped onto it.
+    #[inline]
+    pub fn snap(&self, facet: u32, x: f64, y: f64) -> f64 {
+        self.planes[facet as usize].z_at(x, y)
+    }
+
+    /// The hit, in the lab frame, at lattice-frame (x, y) on `facet` (snapped onto its plane,
+    /// with the error box of [`Self::fast_hit_at`]): where a packet lane continues from when
+    /// it asks [`Texture::intersect_after`].
+    pub fn cell_hit(&self, x: f64, y: f64, facet: u32) -> Hit {
+        let plane = &self.planes[facet as usize];
+        let err = snapped_err(x, y, plane.z_err(x, y));
+        self.lab_hit(0.0, x, y, plane.z_at(x, y), err, facet)
+    }
+
+    /// [`Self::convex_crossing`] for [`LANES`] rays at once (upright pyramids only, see
+    /// [`Self::has_packet_path`]): the same three kinds of query, decisions and margins,
+    /// with the arithmetic laid out lane by lane so that it compiles to SIMD. Lanes it
+    /// cannot decide have neither flag set (see [`Crossings`]).
+    #[inline(always)]
+    pub fn cross_packet(&self, p: &Packet) -> Crossings {
+        // Statement by statement over the lanes and without branches, so that each statement
+        // becomes one SIMD instruction; what a lane does not need is masked off at the end.
+        let (tan, m, per) = (self.tan, self.margin, self.period);
+        let (c, h) = (self.centre, self.height);
+        let [z_min, z_max] = self.z_range_um();
+        let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
+        // Face-plane rates e, their inverses, where the ray meets the ground (rg), and the
+        // home pyramid's face-plane roots r (the facet left pinned at 0).
+        let kf = lanes(|l| f64::from(p.skip[l].min(FLAT_FACET + 1)));
+        let sx = lanes(|l| tan * p.dx[l]);
+        let sy = lanes(|l| tan * p.dy[l]);
+        let e: [F; 4] = [
+            lanes(|l| p.dz[l] + sx[l]),
+            lanes(|l| p.dz[l] - sx[l]),
+            lanes(|l| p.dz[l] + sy[l]),
+            lanes(|l| p.dz[l] - sy[l]),
+        ];
+        let ie: [F; 4] = std::array::from_fn(|f| lanes(|l| 1.0 / e[f][l]));
+        let iz = lanes(|l| 1.0 / p.dz[l]);
+        let rg = lanes(|l| -p.oz[l] * iz[l]);
+        let u = lanes(|l| tan * (p.ox[l] - c));
+        let v = lanes(|l| tan * (p.oy[l] - c));
+        let q = lanes(|l| p.oz[l] - h);
+        let g: [F; 4] = [
+            lanes(|l| q[l] + u[l]),
+            lanes(|l| q[l] - u[l]),
+            lanes(|l| q[l] + v[l]),
+            lanes(|l| q[l] - v[l]),
+        ];
+        let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
+        let r: [F; 4] =
+            std::array::from_fn(|f| pick(left[f], [0.0; LANES], lanes(|l| -g[f][l] * ie[f][l])));
+        // The home cone's span along each ray: latest entering root (the facet left
+        // excluded) and earliest exiting one, with the faces (4: none) and their |rates|.
+        let (mut s, mut ts, mut rs) = (
+            [f64::NEG_INFINITY; LANES],
+            [4.0; LANES],
+            [f64::INFINITY; LANES],
+        );
+        let (mut end, mut te, mut re) =
+            ([f64::INFINITY; LANES], [4.0; LANES], [f64::INFINITY; LANES]);
+        let entering: [M; 4] = std::array::from_fn(|f| mask(|l| e[f][l] < 0.0));
+        for f in 0..4 {
+            let (ff, rate) = ([f as f64; LANES], lanes(|l| e[f][l].abs()));
+            let later = and_not(and(entering[f], mask(|l| r[f][l] > s[l])), left[f]);
+            let earlier = and_not(mask(|l| r[f][l] < end[l]), entering[f]);
+            s = pick(later, r[f], s);
+            ts = pick(later, ff, ts);
+            rs = pick(later, rate, rs);
+            end = pick(earlier, r[f], end);
+            te = pick(earlier, ff, te);
+            re = pick(earlier, rate, re);
+        }
+        // Clear of every other face plane's root and of the ground's, at t on face tag.
+        #[inline(always)]
+        fn clear(r: &[F; 4], rg: &F, m: f64, t: &F, tag: &F) -> M {
+            let mut ok = mask(|l| (rg[l] - t[l]).abs() > m);
+            for (f, rf) in r.iter().enumerate() {
+                let apart = mask(|l| (rf[l] - t[l]).abs() > m);
+                ok = and(ok, or(apart, mask(|l| tag[l] == f as f64)));
+            }
+            ok
+        }
+        let mut valid = mask(|l| p.dz[l] != 0.0);
+        for ef in &e {
+            valid = and(valid, mask(|l| ef[l] != 0.0));
+        }
+        let in_slab = and(mask(|l| z_lo <= p.oz[l]), mask(|l| p.oz[l] <= z_hi));
+        // The facet left is one the ray goes below (into the pyramid) or above.
+        let mut into = [0; LANES];
+        let mut face = [0; LANES];
+        for f in 0..4 {
+            into = or(into, and(left[f], entering[f]));
+            face = or(face, left[f]);
+        }
+        // Launch (A): where it enters the home cone, if clearly so, deep and above the ground.
+        let launch = and(
+            and(valid, mask(|l| p.skip[l] == NO_FACET)),
+            and(mask(|l| p.oz[l] > z_hi), mask(|l| p.dz[l] < 0.0)),
+        );
+        let a_hit = and(
+            and(launch, clear(&r, &rg, m, &s, &ts)),
+            and(
+                mask(|l| s[l] > m),
+                and(
+                    mask(|l| lesser(rs[l], re[l]) * (end[l] - s[l]) > m),
+                    mask(|l| p.oz[l] + p.dz[l] * s[l] > m),
+                ),
+            ),
+        );
+        // Into the pyramid (B): out through the first face plane it leaves, or below the
+        // ground for good.
+        let inside = and(
+            and(and(valid, in_slab), into),
+            and(mask(|l| -m > s[l]), mask(|l| end[l] > m)),
+        );
+        let down = mask(|l| p.dz[l] < 0.0);
+        let ground_clear = or(
+            and(down, mask(|l| rg[l] > m)),
+            and_not(mask(|l| -m > rg[l]), down),
+        );
+        let b_on = and(inside, ground_clear);
+        let b_leaves = and(and(b_on, down), mask(|l| end[l] > rg[l] + m));
+        let b_hit = and(
+            and_not(b_on, b_leaves),
+            and(mask(|l| end[l].is_finite()), clear(&r, &rg, m, &end, &te)),
+        );
+        let hit = or(a_hit, b_hit);
+        let t_hit = pick(a_hit, s, end);
+        let f_hit = pick(a_hit, ts, te);
+        let mut out = Crossings {
+            crosses: hit,
+            leaves: b_leaves,
+            face: std::array::from_fn(|l| f_hit[l] as u32),
+            x: t_hit,
+            y: [0.0; LANES],
+            z: [0.0; LANES],
+        };
+        let walk = if self.touching {
+            and_not(and(and(valid, in_slab), face), into)
+        } else {
+            [0; LANES]
+        };
+        // Off a touching pyramid (C): cell to cell, one lane at a time.
+        let mut cell = [[0.0f64; LANES]; 2];
+        if any(&walk) {
+            for l in 0..LANES {
+                if !on(&walk, l) {
+                    continue;
+                }
+                let ray = ConeRay {
+                    o: Vec3::new(p.ox[l], p.oy[l], p.oz[l]),
+                    d: Vec3::new(p.dx[l], p.dy[l], p.dz[l]),
+                    e: std::array::from_fn(|f| e[f][l]),
+                    ie: std::array::from_fn(|f| ie[f][l]),
+                    rg: rg[l],
+                    m,
+                };
+                match self.off_touching(&ray, z_hi, iz[l]) {
+                    Some(Some((t, i, j, face))) => {
+                        out.crosses[l] = u64::MAX;
+                        out.face[l] = face;
+                        out.x[l] = t;
+                        cell[0][l] = i as f64 * per;
+                        cell[1][l] = j as f64 * per;
+                    }
+                    Some(None) => out.leaves[l] = u64::MAX,
+                    None => {}
+                }
+            }
+        }
+        // Crossing points, wrapped into the unit cell and snapped onto the facet's plane
+        // (`out.x` held the ray parameter until here).
+        let t = out.x;
+        let inside = |v: F| {
+            let high = pick(mask(|l| v[l] >= per), [self.period_below; LANES], v);
+            pick(mask(|l| v[l] < 0.0), [0.0; LANES], high)
+        };
+        let x = inside(lanes(|l| (p.ox[l] + t[l] * p.dx[l]) - cell[0][l]));
+        let y = inside(lanes(|l| (p.oy[l] + t[l] * p.dy[l]) - cell[1][l]));
+        let planes: [&HeightPlane; LANES] =
+            std::array::from_fn(|l| &self.planes[(out.face[l] & 3) as usize]);
+        let (pa, pb, pw) = (
+            lanes(|l| planes[l].a),
+            lanes(|l| planes[l].b),
+            lanes(|l| planes[l].w),
+        );
+        out.x = x;
+        out.y = y;
+        out.z = lanes(|l| pa[l] * x[l] + pb[l] * y[l] + pw[l]); // HeightPlane::z_at
+        out
     }
 }
 

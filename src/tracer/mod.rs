@@ -5,6 +5,7 @@
 //! (reflected, transmitted, film layers, abandoned) add up to its initial weight.
 //! Not here: angular binning (`redistribution`), stacks of thick layers (`wafer`).
 
+mod packet;
 pub mod polarisation;
 pub mod response;
 pub mod surface;

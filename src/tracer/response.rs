@@ -6,6 +6,7 @@
 //! plane of incidence; r_p, t_p are in the convention of Born & Wolf (1999) §1.5.2, in which
 //! r_p = −r_s at normal incidence (the same as Byrnes' `tmm`).
 
+use crate::geometry::greater;
 use crate::thinfilm::{AngleTable, FilmStack, Layer};
 
 /// Most film layers a coating may have on one facet (scenario validation enforces it).
@@ -132,16 +133,24 @@ impl FacetResponse for BareInterface {
     #[inline]
     fn power(&self, side: Side, cos_theta: f64, _cos_tilt: f64) -> [f64; 4] {
         let (n1, n2) = self.indices(side);
-        let sin2_t = (n1 / n2).powi(2) * (1.0 - cos_theta * cos_theta);
-        if sin2_t >= 1.0 {
-            return [1.0, 1.0, 0.0, 0.0];
-        }
-        let cos_t = (1.0 - sin2_t).sqrt();
-        let (a, b) = (n1 * cos_theta, n2 * cos_t);
-        let rs = (a - b) / (a + b);
-        let (c, d) = (n2 * cos_theta, n1 * cos_t);
-        let rp = (c - d) / (c + d);
-        let (rs2, rp2) = (rs * rs, rp * rp);
+        fresnel_power(n1, n2, cos_theta)
+    }
+}
+
+/// (R_s, R_p, T_s, T_p) from index `n1` into `n2` (real) at `cos_theta` (the formulas of
+/// [`BareInterface`]); computed without branches, so that it vectorises over rays.
+#[inline(always)]
+pub fn fresnel_power(n1: f64, n2: f64, cos_theta: f64) -> [f64; 4] {
+    let sin2_t = (n1 / n2).powi(2) * (1.0 - cos_theta * cos_theta);
+    let cos_t = greater(1.0 - sin2_t, 0.0).sqrt();
+    let (a, b) = (n1 * cos_theta, n2 * cos_t);
+    let rs = (a - b) / (a + b);
+    let (c, d) = (n2 * cos_theta, n1 * cos_t);
+    let rp = (c - d) / (c + d);
+    let (rs2, rp2) = (rs * rs, rp * rp);
+    if sin2_t >= 1.0 {
+        [1.0, 1.0, 0.0, 0.0] // total internal reflection
+    } else {
         [rs2, rp2, 1.0 - rs2, 1.0 - rp2]
     }
 }

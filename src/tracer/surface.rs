@@ -11,7 +11,7 @@
 use super::polarisation::{self, Polarised};
 use super::response::{BareInterface, CoatedInterface, FacetResponse, FacetSample, Side, other};
 use super::tally::{HIT_BINS, Tally, polar_bin};
-use crate::geometry::{FacetId, Hit, Vec3, lesser, orthonormal_basis};
+use crate::geometry::{FacetId, Hit, Vec3, greater, lesser, orthonormal_basis};
 use crate::sampling::Stream;
 use crate::texture::{RandomPyramids, RegularPyramids, SurfaceKind, Texture};
 use rayon::prelude::*;
@@ -63,7 +63,7 @@ pub enum Incidence {
 }
 
 impl Incidence {
-    fn side(&self) -> Side {
+    pub(super) fn side(&self) -> Side {
         match self {
             Incidence::Above { .. } => Side::Above,
             _ => Side::Below,
@@ -221,7 +221,13 @@ impl<'a> Surface<'a> {
             };
         }
         if let Some(t) = texture.downcast_ref::<RegularPyramids>() {
-            with_response!(t)
+            if let Some(r) = response.downcast_ref::<BareInterface>() {
+                job.run_pyramids(self, t, r)
+            } else if let Some(r) = response.downcast_ref::<CoatedInterface>() {
+                job.run_pyramids(self, t, r)
+            } else {
+                job.run_pyramids(self, t, self.response)
+            }
         } else if let Some(t) = texture.downcast_ref::<RandomPyramids>() {
             with_response!(t)
         } else {
@@ -243,7 +249,6 @@ impl<'a> Surface<'a> {
         bulk: &mut B,
     ) -> (Outcome, u32) {
         let kind = texture.kind();
-        let n_layers = response.n_layers();
         let [z_lo, z_hi] = texture.z_range_um();
         let mut events = 0u32;
         // The facet event the ray left last (its start point is that hit's point).
@@ -284,123 +289,139 @@ impl<'a> Surface<'a> {
             if events > MAX_EVENTS {
                 return (Outcome::Abandoned { lost: false }, events);
             }
-            let k = ray.dir;
-            let n = hit.normal;
-            let k_dot_n = k.dot(n);
-            // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa;
-            // anything else is a numerical inconsistency.
-            let consistent = match side {
-                Side::Above => k_dot_n < 0.0,
-                Side::Below => k_dot_n > 0.0,
+            let pol = &mut ray.pol;
+            let (dir, to) = match self.facet_event(
+                response, kind, side, ray.dir, hit.normal, pol, rng, film, sample,
+            ) {
+                Step::Go(dir, to) => (dir, to),
+                Step::Extinguished => return (Outcome::Extinguished, events),
+                Step::Lost => return (Outcome::Abandoned { lost: true }, events),
             };
-            if !consistent {
-                return (Outcome::Abandoned { lost: true }, events);
-            }
-            let cos_i = lesser(k_dot_n.abs(), 1.0);
-            let cos_tilt = n.z;
-            let w = ray.pol.s[0];
-
-            // Facet response, film absorption and the reflect/refract choice
-            let (c_r, c_t, reflect) = match self.polarisation {
-                PolarisationMode::Unpolarised => {
-                    let (r, t) = if n_layers == 0 {
-                        let [rs, rp, ts, tp] = response.power(side, cos_i, cos_tilt);
-                        (0.5 * (rs + rp), 0.5 * (ts + tp))
-                    } else {
-                        response.sample(side, cos_i, cos_tilt, sample);
-                        let pairs = sample.a_s.iter().zip(&sample.a_p);
-                        for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
-                            *f += w * 0.5 * (a_s + a_p);
-                        }
-                        (
-                            0.5 * (sample.r_s + sample.r_p),
-                            0.5 * (sample.t_s + sample.t_p),
-                        )
-                    };
-                    let total = r + t;
-                    let reflect = rng.uniform() * total < r;
-                    ray.pol.s = [w * total, 0.0, 0.0, 0.0];
-                    (r, t, reflect)
-                }
-                PolarisationMode::Stokes => {
-                    let s_hat = polarisation::s_axis(k, n, ray.pol.e1);
-                    let s = polarisation::rotate_into(ray.pol.s, ray.pol.e1, k, s_hat);
-                    // The full sample even for bare facets: Stokes tracking needs the cross terms.
-                    response.sample(side, cos_i, cos_tilt, sample);
-                    let pairs = sample.a_s.iter().zip(&sample.a_p);
-                    for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
-                        *f += polarisation::power(&s, *a_s, *a_p);
-                    }
-                    let p_r = polarisation::power(&s, sample.r_s, sample.r_p);
-                    let p_t = polarisation::power(&s, sample.t_s, sample.t_p);
-                    let total = p_r + p_t;
-                    let reflect = rng.uniform() * total < p_r;
-                    let (out, p) = if reflect {
-                        (
-                            polarisation::apply(&s, sample.r_s, sample.r_p, sample.r_cross),
-                            p_r,
-                        )
-                    } else {
-                        (
-                            polarisation::apply(&s, sample.t_s, sample.t_p, sample.t_cross),
-                            p_t,
-                        )
-                    };
-                    let scale = if p > 0.0 { total / p } else { 0.0 };
-                    ray.pol.s = out.map(|v| v * scale);
-                    ray.pol.e1 = s_hat;
-                    (p_r, p_t, reflect)
-                }
-            };
-            if c_r + c_t <= 0.0 {
-                // Everything went into the films (booked above).
-                return (Outcome::Extinguished, events);
-            }
-
-            // New direction
-            let facing = if k_dot_n < 0.0 { n } else { -n };
-            let new_dir = if kind == SurfaceKind::IdealLambertian {
-                let d = lambert(rng);
-                let to_above = (side == Side::Above) == reflect;
-                ray.pol.s = [ray.pol.s[0], 0.0, 0.0, 0.0];
-                if to_above {
-                    d
-                } else {
-                    Vec3::new(d.x, d.y, -d.z)
-                }
-            } else if reflect {
-                k - 2.0 * k_dot_n * n
-            } else {
-                let eta = self.index(side) / self.index(other(side));
-                let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
-                if sin2_t >= 1.0 {
-                    // Transmission without a real refraction angle happens only into an
-                    // absorbing far medium (a rear metal, whose complex index the film
-                    // response keeps): the power is absorbed there at once, so the ray is
-                    // sent straight into it along the facet normal.
-                    -facing
-                } else {
-                    let cos_t = (1.0 - sin2_t).sqrt();
-                    (eta * k + (eta * cos_i - cos_t) * facing).normalize()
-                }
-            };
-            debug_assert!((new_dir.length() - 1.0).abs() < 1e-9);
-            if !reflect {
-                side = other(side);
-            }
-            // The reference axis, now ŝ, is already perpendicular to a reflected or refracted
-            // direction (both lie in the plane of incidence, and ŝ is normal to it); a
-            // randomised ray (unpolarised) gets any axis perpendicular to its direction.
-            // (Stokes only: an unpolarised ray needs none.)
-            if self.polarisation == PolarisationMode::Stokes && kind == SurfaceKind::IdealLambertian
-            {
-                ray.pol.e1 = orthonormal_basis(new_dir).0;
-            }
+            side = to;
             ray.origin = hit.point;
-            ray.dir = new_dir;
+            ray.dir = dir;
             ray.skip = Some(hit.facet);
             last = Some(hit);
         }
+    }
+
+    /// One facet event for a ray in the medium on `side` travelling along `k`, meeting a
+    /// facet with up normal `n`: the coated interface's response for the ray's polarisation,
+    /// film absorption booked into `film` (per layer, as power), the reflect/refract choice
+    /// and the new direction and side; `pol` is updated (weight renormalised to R + T).
+    #[allow(clippy::too_many_arguments)]
+    #[inline(always)]
+    pub(super) fn facet_event<R: FacetResponse + ?Sized>(
+        &self,
+        response: &R,
+        kind: SurfaceKind,
+        side: Side,
+        k: Vec3,
+        n: Vec3,
+        pol: &mut Polarised,
+        rng: &mut Stream,
+        film: &mut [f64],
+        sample: &mut FacetSample,
+    ) -> Step {
+        let n_layers = response.n_layers();
+        let k_dot_n = k.dot(n);
+        // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa;
+        // anything else is a numerical inconsistency.
+        let consistent = match side {
+            Side::Above => k_dot_n < 0.0,
+            Side::Below => k_dot_n > 0.0,
+        };
+        if !consistent {
+            return Step::Lost;
+        }
+        let cos_i = lesser(k_dot_n.abs(), 1.0);
+        let cos_tilt = n.z;
+        let w = pol.s[0];
+
+        // Facet response, film absorption and the reflect/refract choice
+        let (c_r, c_t, reflect) = match self.polarisation {
+            PolarisationMode::Unpolarised => {
+                let (r, t) = if n_layers == 0 {
+                    let [rs, rp, ts, tp] = response.power(side, cos_i, cos_tilt);
+                    (0.5 * (rs + rp), 0.5 * (ts + tp))
+                } else {
+                    response.sample(side, cos_i, cos_tilt, sample);
+                    let pairs = sample.a_s.iter().zip(&sample.a_p);
+                    for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
+                        *f += w * 0.5 * (a_s + a_p);
+                    }
+                    (
+                        0.5 * (sample.r_s + sample.r_p),
+                        0.5 * (sample.t_s + sample.t_p),
+                    )
+                };
+                let total = r + t;
+                let reflect = rng.uniform() * total < r;
+                pol.s = [w * total, 0.0, 0.0, 0.0];
+                (r, t, reflect)
+            }
+            PolarisationMode::Stokes => {
+                let s_hat = polarisation::s_axis(k, n, pol.e1);
+                let s = polarisation::rotate_into(pol.s, pol.e1, k, s_hat);
+                // The full sample even for bare facets: Stokes tracking needs the cross terms.
+                response.sample(side, cos_i, cos_tilt, sample);
+                let pairs = sample.a_s.iter().zip(&sample.a_p);
+                for (f, (a_s, a_p)) in film[..n_layers].iter_mut().zip(pairs) {
+                    *f += polarisation::power(&s, *a_s, *a_p);
+                }
+                let p_r = polarisation::power(&s, sample.r_s, sample.r_p);
+                let p_t = polarisation::power(&s, sample.t_s, sample.t_p);
+                let total = p_r + p_t;
+                let reflect = rng.uniform() * total < p_r;
+                let (out, p) = if reflect {
+                    (
+                        polarisation::apply(&s, sample.r_s, sample.r_p, sample.r_cross),
+                        p_r,
+                    )
+                } else {
+                    (
+                        polarisation::apply(&s, sample.t_s, sample.t_p, sample.t_cross),
+                        p_t,
+                    )
+                };
+                let scale = if p > 0.0 { total / p } else { 0.0 };
+                pol.s = out.map(|v| v * scale);
+                pol.e1 = s_hat;
+                (p_r, p_t, reflect)
+            }
+        };
+        if c_r + c_t <= 0.0 {
+            // Everything went into the films (booked above).
+            return Step::Extinguished;
+        }
+
+        // New direction
+        let facing = if k_dot_n < 0.0 { n } else { -n };
+        let new_dir = if kind == SurfaceKind::IdealLambertian {
+            let d = lambert(rng);
+            let to_above = (side == Side::Above) == reflect;
+            pol.s = [pol.s[0], 0.0, 0.0, 0.0];
+            if to_above {
+                d
+            } else {
+                Vec3::new(d.x, d.y, -d.z)
+            }
+        } else if reflect {
+            reflected(k, n, k_dot_n)
+        } else {
+            let eta = self.index(side) / self.index(other(side));
+            refracted(k, facing, eta, cos_i)
+        };
+        debug_assert!((new_dir.length() - 1.0).abs() < 1e-9);
+        // The reference axis, now ŝ, is already perpendicular to a reflected or refracted
+        // direction (both lie in the plane of incidence, and ŝ is normal to it); a
+        // randomised ray (unpolarised) gets any axis perpendicular to its direction.
+        // (Stokes only: an unpolarised ray needs none.)
+        if self.polarisation == PolarisationMode::Stokes && kind == SurfaceKind::IdealLambertian {
+            pol.e1 = orthonormal_basis(new_dir).0;
+        }
+        let to = if reflect { side } else { other(side) };
+        Step::Go(new_dir, to)
     }
 
     /// Height just outside the texture's range on `side` (by 1e-6 of the feature size, so
@@ -478,10 +499,32 @@ impl<'a> Surface<'a> {
         rays: u64,
         rng: &mut Stream,
     ) -> (Tally, O) {
+        self.trace_chunk_with(incidence, rays, rng, true)
+    }
+
+    /// [`Self::trace_chunk`] without the packet tracer of upright regular pyramids
+    /// (`tracer::packet`): every ray followed on its own. For comparisons and benchmarks.
+    pub fn trace_chunk_one_at_a_time<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        rays: u64,
+        rng: &mut Stream,
+    ) -> (Tally, O) {
+        self.trace_chunk_with(incidence, rays, rng, false)
+    }
+
+    fn trace_chunk_with<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        rays: u64,
+        rng: &mut Stream,
+        packets: bool,
+    ) -> (Tally, O) {
         struct Chunk<'r, O> {
             incidence: &'r Incidence,
             rays: u64,
             rng: &'r mut Stream,
+            packets: bool,
             observer: std::marker::PhantomData<O>,
         }
         impl<O: ExitObserver> Typed for Chunk<'_, O> {
@@ -494,11 +537,31 @@ impl<'a> Surface<'a> {
             ) -> Self::Out {
                 surface.trace_chunk_in(texture, response, self.incidence, self.rays, self.rng)
             }
+            fn run_pyramids<R: FacetResponse + ?Sized>(
+                self,
+                surface: &Surface,
+                texture: &RegularPyramids,
+                response: &R,
+            ) -> Self::Out {
+                if self.packets && texture.has_packet_path() {
+                    super::packet::trace_chunk(
+                        surface,
+                        texture,
+                        response,
+                        self.incidence,
+                        self.rays,
+                        self.rng,
+                    )
+                } else {
+                    self.run(surface, texture, response)
+                }
+            }
         }
         self.typed(Chunk {
             incidence,
             rays,
             rng,
+            packets,
             observer: std::marker::PhantomData,
         })
     }
@@ -533,39 +596,17 @@ impl<'a> Surface<'a> {
                 &mut sample,
                 &mut Clear,
             );
-            tally.rays += 1;
-            tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
-            for (m, f) in tally.film.iter_mut().zip(&film[..n_layers]) {
-                m.add(*f);
-            }
-            let w = ray.pol.s[0];
-            let (mut r, mut t, mut a) = (0.0, 0.0, 0.0);
-            match outcome {
-                Outcome::Left(side) => {
-                    let bin = polar_bin(ray.dir.z.abs());
-                    if side == side_in {
-                        r = w;
-                        tally.reflected_polar[bin] += w;
-                    } else {
-                        t = w;
-                        tally.transmitted_polar[bin] += w;
-                        tally.transmitted_inv_cos += w / ray.dir.z.abs().max(1e-12);
-                    }
-                    obs.exit(start, side, ray.dir, w);
-                }
-                Outcome::Extinguished => {}
-                Outcome::Abandoned { lost } => {
-                    a = w;
-                    if lost {
-                        tally.lost_rays += 1;
-                    } else {
-                        tally.event_limited_rays += 1;
-                    }
-                }
-            }
-            tally.reflected.add(r);
-            tally.transmitted.add(t);
-            tally.abandoned.add(a);
+            book(
+                &mut tally,
+                &mut obs,
+                side_in,
+                start,
+                ray.dir,
+                ray.pol.s[0],
+                outcome,
+                events,
+                &film[..n_layers],
+            );
         }
         (tally, obs)
     }
@@ -653,7 +694,7 @@ impl<'a> Surface<'a> {
 }
 
 /// A job run with a surface's texture and response as concrete types (see `Surface::typed`).
-trait Typed {
+trait Typed: Sized {
     type Out;
     fn run<T: Texture + ?Sized, R: FacetResponse + ?Sized>(
         self,
@@ -661,6 +702,95 @@ trait Typed {
         texture: &T,
         response: &R,
     ) -> Self::Out;
+    /// [`Self::run`] for regular pyramids (jobs with a packet path override it).
+    fn run_pyramids<R: FacetResponse + ?Sized>(
+        self,
+        surface: &Surface,
+        texture: &RegularPyramids,
+        response: &R,
+    ) -> Self::Out {
+        self.run(surface, texture, response)
+    }
+}
+
+/// What a facet event did to a ray.
+pub(super) enum Step {
+    /// Reflected or refracted: the new direction and the medium it is now in.
+    Go(Vec3, Side),
+    /// All power went into the films.
+    Extinguished,
+    /// Met the facet from the wrong side: a numerical inconsistency.
+    Lost,
+}
+
+/// Books one finished ray into `tally` and `obs`: it arrived from `side_in` along `start`,
+/// ended as `outcome` after `events` facet events with `ray`'s direction and weight, and put
+/// `film` into the film layers.
+#[allow(clippy::too_many_arguments)]
+#[inline]
+pub(super) fn book<O: ExitObserver>(
+    tally: &mut Tally,
+    obs: &mut O,
+    side_in: Side,
+    start: Vec3,
+    dir: Vec3,
+    w: f64,
+    outcome: Outcome,
+    events: u32,
+    film: &[f64],
+) {
+    tally.rays += 1;
+    tally.hits[(events as usize).min(HIT_BINS - 1)] += 1;
+    for (m, f) in tally.film.iter_mut().zip(film) {
+        m.add(*f);
+    }
+    let (mut r, mut t, mut a) = (0.0, 0.0, 0.0);
+    match outcome {
+        Outcome::Left(side) => {
+            let bin = polar_bin(dir.z.abs());
+            if side == side_in {
+                r = w;
+                tally.reflected_polar[bin] += w;
+            } else {
+                t = w;
+                tally.transmitted_polar[bin] += w;
+                tally.transmitted_inv_cos += w / dir.z.abs().max(1e-12);
+            }
+            obs.exit(start, side, dir, w);
+        }
+        Outcome::Extinguished => {}
+        Outcome::Abandoned { lost } => {
+            a = w;
+            if lost {
+                tally.lost_rays += 1;
+            } else {
+                tally.event_limited_rays += 1;
+            }
+        }
+    }
+    tally.reflected.add(r);
+    tally.transmitted.add(t);
+    tally.abandoned.add(a);
+}
+
+/// Mirror image of the direction `k` in the plane with unit normal `n` (`k_dot_n` = k·n).
+#[inline(always)]
+pub(super) fn reflected(k: Vec3, n: Vec3, k_dot_n: f64) -> Vec3 {
+    k - 2.0 * k_dot_n * n
+}
+
+/// Direction of the ray `k` refracted by Snell's law through a plane with unit normal
+/// `facing` (on the incidence side, k·facing = −`cos_i`), index ratio `eta` = n₁/n₂.
+/// Without a real refraction angle, −`facing`: that transmission happens only into an
+/// absorbing far medium (a rear metal, whose complex index the film response keeps), where
+/// the power is absorbed at once, so the ray is sent straight into it along the normal.
+/// (No branches: it vectorises over rays.)
+#[inline(always)]
+pub(super) fn refracted(k: Vec3, facing: Vec3, eta: f64, cos_i: f64) -> Vec3 {
+    let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
+    let cos_t = greater(1.0 - sin2_t, 0.0).sqrt();
+    let d = (eta * k + (eta * cos_i - cos_t) * facing).normalize();
+    if sin2_t >= 1.0 { -facing } else { d }
 }
 
 /// `s` rescaled so that its intensity is `w`.
@@ -697,6 +827,15 @@ pub struct Launcher {
 }
 
 impl Launcher {
+    /// Direction and polarisation shared by all rays, if they are (not for isotropic
+    /// incidence), and the height of the entry plane.
+    pub(super) fn fixed(&self) -> (Option<(Vec3, Polarised)>, f64) {
+        match self.start {
+            Start::Fixed(dir, pol) => (Some((dir, pol)), self.z),
+            Start::Isotropic => (None, self.z),
+        }
+    }
+
     /// A new ray at a uniformly random point of the unit cell on the entry plane.
     #[inline]
     pub fn ray(&self, rng: &mut Stream) -> Ray {
