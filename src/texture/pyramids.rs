@@ -22,7 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
+use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, or, pick};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
@@ -427,7 +427,8 @@ impl RegularPyramids {
     /// * on touching pyramids, a ray leaving a face upward cannot meet its own (convex)
     ///   pyramid again nor the ground, so it leaves the slab if it rises out of it before
     ///   the cell's edge, and otherwise enters the neighbour's cone if that entry is above
-    ///   the ground.
+    ///   the ground; the same holds for a ray from above that clearly misses the cone of
+    ///   the cell it starts over (oblique incidence).
     ///
     /// Same answers and margins as [`Self::fast_crossing`] (every decision clear by
     /// `self.margin`); `None` for anything else, which the cell walk then decides.
@@ -465,7 +466,13 @@ impl RegularPyramids {
                     floor_i64(o.x * self.inv_period),
                     floor_i64(o.y * self.inv_period),
                 );
-                let (s, ts) = ray.entry(&ray.roots(self, i, j), 0.0)?;
+                let r = ray.roots(self, i, j);
+                let (s, _, end, _) = ray.cone(&r);
+                if self.touching && exceeds(s, end + m) {
+                    // Clearly past the pyramid below it: over the cells, as off a face.
+                    return self.off_touching(&ray, z_hi, iz, i, j);
+                }
+                let (s, ts) = ray.entry(&r, 0.0)?;
                 Some(Some((s, i, j, ts)))
             }
             Some(k) if k < FLAT_FACET && z_lo <= o.z && o.z <= z_hi && e[k as usize] < 0.0 => {
@@ -503,22 +510,25 @@ impl RegularPyramids {
                 (x.is_finite() && ray.clear(&r, x, tag)).then_some(Some((x, 0, 0, tag)))
             }
             Some(k) if k < FLAT_FACET && self.touching && z_lo <= o.z && o.z <= z_hi => {
-                self.off_touching(&ray, z_hi, iz)
+                self.off_touching(&ray, z_hi, iz, 0, 0)
             }
             _ => None,
         }
     }
 
-    /// [`Self::convex_crossing`] for a ray leaving a face of a touching pyramid outward
-    /// (e_k > 0): from cell to cell (its own cone is behind it, and no ground is exposed
-    /// between touching pyramids), while it passes clearly over the edges and clearly misses
-    /// the cones; a few cells at most. `iz` = 1/d.z.
+    /// [`Self::convex_crossing`] for a ray over touching pyramids that cannot meet the one
+    /// of its cell (i0, j0): leaving a face of it outward (e_k > 0; its own cone is behind
+    /// it), or from above the slab, clearly missing that cone. From cell to cell (no ground
+    /// is exposed between touching pyramids), while it passes clearly over the edges and
+    /// clearly misses the cones; a few cells at most. `iz` = 1/d.z.
     #[inline(always)]
     fn off_touching(
         &self,
         ray: &ConeRay,
         z_hi: f64,
         iz: f64,
+        i0: i64,
+        j0: i64,
     ) -> Option<Option<(f64, i64, i64, u32)>> {
         let (o, d, m, p) = (ray.o, ray.d, ray.m, self.period);
         let t_top = if d.z > 0.0 {
@@ -535,7 +545,7 @@ impl RegularPyramids {
                 f64::INFINITY
             }
         };
-        let (mut i, mut j) = (0i64, 0i64);
+        let (mut i, mut j) = (i0, j0);
         for _ in 0..4 {
             let (tx, ty) = (to_edge(i, o.x, d.x), to_edge(j, o.y, d.y));
             let edge = lesser(tx, ty);
@@ -926,19 +936,16 @@ impl RegularPyramids {
 
     /// [`Self::convex_crossing`] for [`LANES`] rays at once (upright pyramids only, see
     /// [`Self::has_packet_path`]): the same three kinds of query, decisions and margins,
-    /// with the arithmetic laid out lane by lane so that it compiles to SIMD. Lanes it
-    /// cannot decide have neither flag set (see [`Crossings`]).
+    /// written statement by statement over the lanes without branches, so that each
+    /// statement compiles to one SIMD instruction. Lanes it cannot decide have neither flag
+    /// set (see [`Crossings`]).
     #[inline(always)]
     pub fn cross_packet(&self, p: &Packet) -> Crossings {
-        // Statement by statement over the lanes and without branches, so that each statement
-        // becomes one SIMD instruction; what a lane does not need is masked off at the end.
         let (tan, m, per) = (self.tan, self.margin, self.period);
-        let (c, h) = (self.centre, self.height);
         let [z_min, z_max] = self.z_range_um();
         let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
-        // Face-plane rates e, their inverses, where the ray meets the ground (rg), and the
-        // home pyramid's face-plane roots r (the facet left pinned at 0).
-        let kf = lanes(|l| f64::from(p.skip[l].min(FLAT_FACET + 1)));
+        let (inf, none) = ([f64::INFINITY; LANES], [0; LANES]);
+        // Face-plane rates e (dG/dt), their inverses, and where the ray meets the ground.
         let sx = lanes(|l| tan * p.dx[l]);
         let sy = lanes(|l| tan * p.dy[l]);
         let e: [F; 4] = [
@@ -950,81 +957,44 @@ impl RegularPyramids {
         let ie: [F; 4] = std::array::from_fn(|f| lanes(|l| 1.0 / e[f][l]));
         let iz = lanes(|l| 1.0 / p.dz[l]);
         let rg = lanes(|l| -p.oz[l] * iz[l]);
-        let u = lanes(|l| tan * (p.ox[l] - c));
-        let v = lanes(|l| tan * (p.oy[l] - c));
-        let q = lanes(|l| p.oz[l] - h);
-        let g: [F; 4] = [
-            lanes(|l| q[l] + u[l]),
-            lanes(|l| q[l] - u[l]),
-            lanes(|l| q[l] + v[l]),
-            lanes(|l| q[l] - v[l]),
-        ];
-        let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
-        let r: [F; 4] =
-            std::array::from_fn(|f| pick(left[f], [0.0; LANES], lanes(|l| -g[f][l] * ie[f][l])));
-        // The home cone's span along each ray: latest entering root (the facet left
-        // excluded) and earliest exiting one, with the faces (4: none) and their |rates|.
-        let (mut s, mut ts, mut rs) = (
-            [f64::NEG_INFINITY; LANES],
-            [4.0; LANES],
-            [f64::INFINITY; LANES],
-        );
-        let (mut end, mut te, mut re) =
-            ([f64::INFINITY; LANES], [4.0; LANES], [f64::INFINITY; LANES]);
         let entering: [M; 4] = std::array::from_fn(|f| mask(|l| e[f][l] < 0.0));
+        let rates: [F; 4] = std::array::from_fn(|f| lanes(|l| e[f][l].abs()));
+        let lanes_ray = LaneRay {
+            entering: &entering,
+            rates: &rates,
+            rg: &rg,
+            m,
+        };
+        // The home pyramid's cone, the facet left pinned at t = 0 and not counted as entered.
+        let kf = lanes(|l| f64::from(p.skip[l].min(FLAT_FACET + 1)));
+        let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
+        let mut r = self.roots_lanes(p, &ie, &[0.0; LANES], &[0.0; LANES]);
         for f in 0..4 {
-            let (ff, rate) = ([f as f64; LANES], lanes(|l| e[f][l].abs()));
-            let later = and_not(and(entering[f], mask(|l| r[f][l] > s[l])), left[f]);
-            let earlier = and_not(mask(|l| r[f][l] < end[l]), entering[f]);
-            s = pick(later, r[f], s);
-            ts = pick(later, ff, ts);
-            rs = pick(later, rate, rs);
-            end = pick(earlier, r[f], end);
-            te = pick(earlier, ff, te);
-            re = pick(earlier, rate, re);
+            r[f] = pick(left[f], [0.0; LANES], r[f]);
         }
-        // Clear of every other face plane's root and of the ground's, at t on face tag.
-        #[inline(always)]
-        fn clear(r: &[F; 4], rg: &F, m: f64, t: &F, tag: &F) -> M {
-            let mut ok = mask(|l| (rg[l] - t[l]).abs() > m);
-            for (f, rf) in r.iter().enumerate() {
-                let apart = mask(|l| (rf[l] - t[l]).abs() > m);
-                ok = and(ok, or(apart, mask(|l| tag[l] == f as f64)));
-            }
-            ok
-        }
+        let home = lanes_ray.cone(&r, &left);
         let mut valid = mask(|l| p.dz[l] != 0.0);
         for ef in &e {
             valid = and(valid, mask(|l| ef[l] != 0.0));
         }
         let in_slab = and(mask(|l| z_lo <= p.oz[l]), mask(|l| p.oz[l] <= z_hi));
-        // The facet left is one the ray goes below (into the pyramid) or above.
-        let mut into = [0; LANES];
-        let mut face = [0; LANES];
+        let mut into = none;
+        let mut on_face = none;
         for f in 0..4 {
             into = or(into, and(left[f], entering[f]));
-            face = or(face, left[f]);
+            on_face = or(on_face, left[f]);
         }
         // Launch (A): where it enters the home cone, if clearly so, deep and above the ground.
         let launch = and(
             and(valid, mask(|l| p.skip[l] == NO_FACET)),
             and(mask(|l| p.oz[l] > z_hi), mask(|l| p.dz[l] < 0.0)),
         );
-        let a_hit = and(
-            and(launch, clear(&r, &rg, m, &s, &ts)),
-            and(
-                mask(|l| s[l] > m),
-                and(
-                    mask(|l| lesser(rs[l], re[l]) * (end[l] - s[l]) > m),
-                    mask(|l| p.oz[l] + p.dz[l] * s[l] > m),
-                ),
-            ),
-        );
+        let a_hit = and(launch, lanes_ray.entry(p, &r, &home, &[0.0; LANES]));
         // Into the pyramid (B): out through the first face plane it leaves, or below the
         // ground for good.
         let inside = and(
             and(and(valid, in_slab), into),
-            and(mask(|l| -m > s[l]), mask(|l| end[l] > m)),
+            and(mask(|l| -m > home.s[l]), mask(|l| home.end[l] > m)),
         );
         let down = mask(|l| p.dz[l] < 0.0);
         let ground_clear = or(
@@ -1032,75 +1002,184 @@ impl RegularPyramids {
             and_not(mask(|l| -m > rg[l]), down),
         );
         let b_on = and(inside, ground_clear);
-        let b_leaves = and(and(b_on, down), mask(|l| end[l] > rg[l] + m));
+        let mut leaves = and(and(b_on, down), mask(|l| home.end[l] > rg[l] + m));
         let b_hit = and(
-            and_not(b_on, b_leaves),
-            and(mask(|l| end[l].is_finite()), clear(&r, &rg, m, &end, &te)),
+            and_not(b_on, leaves),
+            and(
+                mask(|l| home.end[l].is_finite()),
+                lanes_ray.clear(&r, &home.end, &home.te),
+            ),
         );
-        let hit = or(a_hit, b_hit);
-        let t_hit = pick(a_hit, s, end);
-        let f_hit = pick(a_hit, ts, te);
-        let mut out = Crossings {
-            crosses: hit,
-            leaves: b_leaves,
-            face: std::array::from_fn(|l| f_hit[l] as u32),
-            x: t_hit,
-            y: [0.0; LANES],
-            z: [0.0; LANES],
-        };
-        let walk = if self.touching {
-            and_not(and(and(valid, in_slab), face), into)
+        let mut crosses = or(a_hit, b_hit);
+        let mut t = pick(a_hit, home.s, home.end);
+        let mut face = pick(a_hit, home.ts, home.te);
+        let mut cell = [[0.0; LANES]; 2];
+        // Off a touching pyramid (C), or from above clearly past the one below (A): from
+        // cell to cell, as `off_touching`.
+        let mut walking = if self.touching {
+            let past = and(launch, mask(|l| home.s[l] > home.end[l] + m));
+            or(and_not(and(and(valid, in_slab), on_face), into), past)
         } else {
-            [0; LANES]
+            none
         };
-        // Off a touching pyramid (C): cell to cell, one lane at a time.
-        let mut cell = [[0.0f64; LANES]; 2];
-        if any(&walk) {
-            for l in 0..LANES {
-                if !on(&walk, l) {
-                    continue;
-                }
-                let ray = ConeRay {
-                    o: Vec3::new(p.ox[l], p.oy[l], p.oz[l]),
-                    d: Vec3::new(p.dx[l], p.dy[l], p.dz[l]),
-                    e: std::array::from_fn(|f| e[f][l]),
-                    ie: std::array::from_fn(|f| ie[f][l]),
-                    rg: rg[l],
-                    m,
-                };
-                match self.off_touching(&ray, z_hi, iz[l]) {
-                    Some(Some((t, i, j, face))) => {
-                        out.crosses[l] = u64::MAX;
-                        out.face[l] = face;
-                        out.x[l] = t;
-                        cell[0][l] = i as f64 * per;
-                        cell[1][l] = j as f64 * per;
-                    }
-                    Some(None) => out.leaves[l] = u64::MAX,
-                    None => {}
-                }
+        let t_top = pick(down, inf, lanes(|l| (z_hi - p.oz[l]) * iz[l]));
+        let (east, north) = (mask(|l| p.dx[l] > 0.0), mask(|l| p.dy[l] > 0.0));
+        let (west, south) = (mask(|l| p.dx[l] < 0.0), mask(|l| p.dy[l] < 0.0));
+        let step_x = pick(east, [1.0; LANES], [-1.0; LANES]);
+        let step_y = pick(north, [1.0; LANES], [-1.0; LANES]);
+        let (mut i, mut j) = ([0.0; LANES], [0.0; LANES]);
+        let to_edge = |c: &F, x: &F, dx: &F, pos: M, neg: M| {
+            let ahead = lanes(|l| ((c[l] + 1.0) * per - x[l]) / dx[l]);
+            let behind = lanes(|l| (c[l] * per - x[l]) / dx[l]);
+            pick(pos, ahead, pick(neg, behind, inf))
+        };
+        for _ in 0..4 {
+            if !any(&walking) {
+                break;
             }
+            let tx = to_edge(&i, &p.ox, &p.dx, east, west);
+            let ty = to_edge(&j, &p.oy, &p.dy, north, south);
+            let edge = lanes(|l| lesser(tx[l], ty[l]));
+            let out_top = and(walking, mask(|l| t_top[l] < edge[l] - m)); // out of the slab first
+            leaves = or(leaves, out_top);
+            walking = and_not(walking, out_top);
+            // At a corner, or low at the edge (a valley): undecided.
+            let clear_edge = and(
+                and(mask(|l| edge[l] > m), mask(|l| (tx[l] - ty[l]).abs() > m)),
+                mask(|l| p.oz[l] + p.dz[l] * edge[l] > m),
+            );
+            walking = and(walking, clear_edge);
+            let across_x = mask(|l| tx[l] < ty[l]);
+            i = pick(and(walking, across_x), lanes(|l| i[l] + step_x[l]), i);
+            j = pick(and_not(walking, across_x), lanes(|l| j[l] + step_y[l]), j);
+            let (ci, cj) = (lanes(|l| i[l] * per), lanes(|l| j[l] * per));
+            let rn = self.roots_lanes(p, &ie, &ci, &cj);
+            let cone = lanes_ray.cone(&rn, &[none; 4]);
+            let meets = and(walking, mask(|l| cone.s[l] < cone.end[l] - m));
+            let entry = and(meets, lanes_ray.entry(p, &rn, &cone, &edge));
+            crosses = or(crosses, entry);
+            t = pick(entry, cone.s, t);
+            face = pick(entry, cone.ts, face);
+            cell = [pick(entry, ci, cell[0]), pick(entry, cj, cell[1])];
+            // Past this cone clearly (or else grazing it: undecided), on to the next cell.
+            walking = and(
+                and_not(walking, meets),
+                mask(|l| cone.s[l] > cone.end[l] + m),
+            );
         }
-        // Crossing points, wrapped into the unit cell and snapped onto the facet's plane
-        // (`out.x` held the ray parameter until here).
-        let t = out.x;
+        // Crossing points, wrapped into the unit cell and snapped onto the facet's plane.
         let inside = |v: F| {
             let high = pick(mask(|l| v[l] >= per), [self.period_below; LANES], v);
             pick(mask(|l| v[l] < 0.0), [0.0; LANES], high)
         };
         let x = inside(lanes(|l| (p.ox[l] + t[l] * p.dx[l]) - cell[0][l]));
         let y = inside(lanes(|l| (p.oy[l] + t[l] * p.dy[l]) - cell[1][l]));
+        let face: [u32; LANES] = std::array::from_fn(|l| face[l] as u32);
         let planes: [&HeightPlane; LANES] =
-            std::array::from_fn(|l| &self.planes[(out.face[l] & 3) as usize]);
+            std::array::from_fn(|l| &self.planes[(face[l] & 3) as usize]);
         let (pa, pb, pw) = (
             lanes(|l| planes[l].a),
             lanes(|l| planes[l].b),
             lanes(|l| planes[l].w),
         );
-        out.x = x;
-        out.y = y;
-        out.z = lanes(|l| pa[l] * x[l] + pb[l] * y[l] + pw[l]); // HeightPlane::z_at
-        out
+        Crossings {
+            crosses,
+            leaves,
+            face,
+            x,
+            y,
+            z: lanes(|l| pa[l] * x[l] + pb[l] * y[l] + pw[l]), // HeightPlane::z_at
+        }
+    }
+
+    /// Face-plane roots (as [`ConeRay::roots`]) of the pyramids whose cells start at
+    /// (`cx`, `cy`) (multiples of the period), lane by lane.
+    #[inline(always)]
+    fn roots_lanes(&self, p: &Packet, ie: &[F; 4], cx: &F, cy: &F) -> [F; 4] {
+        let (tan, c, h) = (self.tan, self.centre, self.height);
+        let u = lanes(|l| tan * ((p.ox[l] - cx[l]) - c));
+        let v = lanes(|l| tan * ((p.oy[l] - cy[l]) - c));
+        let q = lanes(|l| p.oz[l] - h);
+        let g = [
+            lanes(|l| q[l] + u[l]),
+            lanes(|l| q[l] - u[l]),
+            lanes(|l| q[l] + v[l]),
+            lanes(|l| q[l] - v[l]),
+        ];
+        std::array::from_fn(|f| lanes(|l| -g[f][l] * ie[f][l]))
+    }
+}
+
+/// The rays of a packet as [`ConeRay`] sees one: which faces they
+/// go below, the rates' magnitudes, where they meet the ground, and the margin.
+struct LaneRay<'a> {
+    entering: &'a [M; 4],
+    rates: &'a [F; 4],
+    rg: &'a F,
+    m: f64,
+}
+
+/// A cone's span along each ray (as [`ConeRay::cone`]): latest entering root `s` on face
+/// `ts` and earliest exiting root `end` on face `te` (faces as f64, 4 for none), with the
+/// |rates| `rs`, `re` of those faces (∞ for none).
+struct LaneCone {
+    s: F,
+    ts: F,
+    rs: F,
+    end: F,
+    te: F,
+    re: F,
+}
+
+impl LaneRay<'_> {
+    /// [`ConeRay::cone`] lane by lane, the faces in `skip` not counted as entered.
+    #[inline(always)]
+    fn cone(&self, r: &[F; 4], skip: &[M; 4]) -> LaneCone {
+        let mut c = LaneCone {
+            s: [f64::NEG_INFINITY; LANES],
+            ts: [4.0; LANES],
+            rs: [f64::INFINITY; LANES],
+            end: [f64::INFINITY; LANES],
+            te: [4.0; LANES],
+            re: [f64::INFINITY; LANES],
+        };
+        for f in 0..4 {
+            let ff = [f as f64; LANES];
+            let later = and_not(and(self.entering[f], mask(|l| r[f][l] > c.s[l])), skip[f]);
+            let earlier = and_not(mask(|l| r[f][l] < c.end[l]), self.entering[f]);
+            c.s = pick(later, r[f], c.s);
+            c.ts = pick(later, ff, c.ts);
+            c.rs = pick(later, self.rates[f], c.rs);
+            c.end = pick(earlier, r[f], c.end);
+            c.te = pick(earlier, ff, c.te);
+            c.re = pick(earlier, self.rates[f], c.re);
+        }
+        c
+    }
+
+    /// [`ConeRay::clear`] lane by lane: `t` (on face `tag`) clear of every other face
+    /// plane's root and of the ground's.
+    #[inline(always)]
+    fn clear(&self, r: &[F; 4], t: &F, tag: &F) -> M {
+        let m = self.m;
+        let mut ok = mask(|l| (self.rg[l] - t[l]).abs() > m);
+        for (f, rf) in r.iter().enumerate() {
+            let apart = mask(|l| (rf[l] - t[l]).abs() > m);
+            ok = and(ok, or(apart, mask(|l| tag[l] == f as f64)));
+        }
+        ok
+    }
+
+    /// [`ConeRay::entry`] lane by lane: the ray enters `cone` (roots `r`) clearly after
+    /// `from`, stays inside deeper than the margin, above the ground.
+    #[inline(always)]
+    fn entry(&self, p: &Packet, r: &[F; 4], cone: &LaneCone, from: &F) -> M {
+        let m = self.m;
+        let c = cone;
+        let deep = mask(|l| lesser(c.rs[l], c.re[l]) * (c.end[l] - c.s[l]) > m);
+        let above = mask(|l| p.oz[l] + p.dz[l] * c.s[l] > m);
+        let after = mask(|l| c.s[l] > from[l] + m);
+        and(and(deep, above), and(after, self.clear(r, &c.s, &c.ts)))
     }
 }
 
@@ -1435,6 +1514,101 @@ mod tests {
     /// almost everywhere: rays from above and below at random angles, and rays leaving each
     /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
     /// lattices.
+    #[test]
+    fn packet_crossings_equal_the_cone_shortcut_lane_by_lane() {
+        // cross_packet is convex_crossing rewritten over lanes: every lane must give the
+        // same verdict, facet and (bit for bit) crossing point, for launches, rays into a
+        // pyramid and rays off a face, on touching and gapped pyramids.
+        use crate::sampling::Stream;
+        let specs = [
+            RegularPyramidsSpec::upright(5.0),
+            RegularPyramidsSpec {
+                period_um: 7.0,
+                ..RegularPyramidsSpec::upright(5.0)
+            },
+            RegularPyramidsSpec {
+                base_angle_deg: 40.0,
+                ..RegularPyramidsSpec::upright(3.0)
+            },
+        ];
+        for (n, spec) in specs.into_iter().enumerate() {
+            let tex = RegularPyramids::new(spec).unwrap();
+            let [z_min, z_max] = tex.z_range_um();
+            let (z_lo, z_hi) = (z_min - tex.pad, z_max + tex.pad);
+            let p = tex.period;
+            let mut rng = Stream::new(21, n as u64, 0);
+            // Queries (origin in the unit cell, direction, facet left) along random paths.
+            let mut queries: Vec<(Vec3, Vec3, Option<u32>)> = Vec::new();
+            while queries.len() < 40_000 {
+                let mut dir = rng.cosine_hemisphere();
+                dir.z = -dir.z;
+                if rng.uniform() < 0.25 {
+                    dir = Vec3::NEG_Z;
+                }
+                let mut o = Vec3::new(rng.uniform() * p, rng.uniform() * p, z_max + 0.1);
+                let mut skip = None;
+                for _ in 0..6 {
+                    queries.push((o, dir, skip));
+                    let Some(Some((t, i, j, k))) = tex.convex_crossing(o, dir, skip, z_lo, z_hi)
+                    else {
+                        break;
+                    };
+                    let hit = tex.fast_hit_at(o, dir, t, i, j, k);
+                    let nrm = tex.planes[k as usize].normal();
+                    let k_dot_n = dir.dot(nrm);
+                    let turn = rng.uniform();
+                    let (cos_i, eta) =
+                        (k_dot_n.abs(), if k_dot_n < 0.0 { 1.0 / 3.94 } else { 3.94 });
+                    let sin2_t = eta * eta * (1.0 - cos_i * cos_i);
+                    dir = if turn < 0.5 || sin2_t >= 1.0 {
+                        dir - 2.0 * k_dot_n * nrm
+                    } else {
+                        let facing = if k_dot_n < 0.0 { nrm } else { -nrm };
+                        (eta * dir + (eta * cos_i - (1.0 - sin2_t).sqrt()) * facing).normalize()
+                    };
+                    o = hit.point;
+                    skip = Some(k);
+                }
+            }
+            let mut kinds = [0usize; 3];
+            for batch in queries.chunks_exact(LANES) {
+                let mut packet = Packet::default();
+                for (l, (o, d, skip)) in batch.iter().enumerate() {
+                    packet.ox[l] = o.x;
+                    packet.oy[l] = o.y;
+                    packet.oz[l] = o.z;
+                    packet.dx[l] = d.x;
+                    packet.dy[l] = d.y;
+                    packet.dz[l] = d.z;
+                    packet.skip[l] = skip.unwrap_or(NO_FACET);
+                }
+                let got = tex.cross_packet(&packet);
+                for (l, &(o, d, skip)) in batch.iter().enumerate() {
+                    let (crosses, leaves) = (got.crosses[l] != 0, got.leaves[l] != 0);
+                    match tex.convex_crossing(o, d, skip, z_lo, z_hi) {
+                        None => {
+                            assert!(!crosses && !leaves, "spec {n}: {o:?} {d:?} {skip:?}");
+                            kinds[2] += 1;
+                        }
+                        Some(None) => {
+                            assert!(leaves && !crosses, "spec {n}: {o:?} {d:?} {skip:?}");
+                            kinds[1] += 1;
+                        }
+                        Some(Some((t, i, j, k))) => {
+                            assert!(crosses && !leaves, "spec {n}: {o:?} {d:?} {skip:?}");
+                            let hit = tex.fast_hit_at(o, d, t, i, j, k);
+                            assert_eq!(got.face[l], k, "spec {n}");
+                            assert_eq!([got.x[l], got.y[l], got.z[l]], hit.point.to_array());
+                            kinds[0] += 1;
+                        }
+                    }
+                }
+            }
+            eprintln!("spec {n}: crosses, leaves, undecided = {kinds:?}");
+            assert!(kinds[0] > 10_000 && kinds[1] > 1_000, "spec {n}: {kinds:?}");
+        }
+    }
+
     #[test]
     fn fast_path_agrees_with_the_robust_walk() {
         use crate::sampling::Stream;

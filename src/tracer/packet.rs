@@ -14,10 +14,10 @@
 //! set. The random numbers differ from the one-ray tracer's, so results agree with it
 //! statistically, not bit for bit (tested).
 
-use super::polarisation::Polarised;
+use super::polarisation::{self, Polarised};
 use super::response::{BareInterface, FacetResponse, FacetSample, MAX_FILM_LAYERS, Side};
 use super::surface::{
-    ExitObserver, Incidence, MAX_EVENTS, Outcome, PolarisationMode, Step, Surface, book,
+    ExitObserver, Incidence, MAX_EVENTS, Outcome, PolarisationMode, Surface, book,
 };
 use super::tally::Tally;
 use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
@@ -27,20 +27,31 @@ use crate::texture::pyramids::{Crossings, NO_FACET, Packet};
 use crate::texture::{RegularPyramids, Texture};
 use std::any::Any;
 
-/// The rays in flight: geometry for the texture, and per lane the weight, the medium,
-/// the event count (as f64, exact), whether the lane holds a ray, and what only the general
-/// event path ([`Surface::facet_event`]) and the booking need.
+/// The rays in flight, lane by lane: geometry for the texture, Stokes vectors (S₀ is the
+/// weight) with their reference axes (lattice frame), the medium, the event count (as f64,
+/// exact), film absorption per layer, whether the lane holds a ray, and the incident
+/// direction (lab frame, for the exit observer).
 struct Flight {
     packet: Packet,
-    weight: F,
+    stokes: [F; 4],
+    e1: [F; 3],
     below: M,
     events: F,
+    film: [F; MAX_FILM_LAYERS],
     active: [bool; LANES],
-    /// Stokes vector (intensity kept equal to the weight) and reference axis (lattice frame).
-    pol: [Polarised; LANES],
-    /// Incident direction (lab frame), for the exit observer.
     start: [Vec3; LANES],
-    film: [[f64; MAX_FILM_LAYERS]; LANES],
+}
+
+impl Flight {
+    /// Unpolarised light after an event of the `go` lanes: weight × (R + T) = `total`.
+    #[inline(always)]
+    fn renormalise_unpolarised(&mut self, go: M, total: &F) {
+        let w = self.stokes[0];
+        self.stokes[0] = pick(go, lanes(|l| w[l] * total[l]), w);
+        for c in 1..4 {
+            self.stokes[c] = pick(go, [0.0; LANES], self.stokes[c]);
+        }
+    }
 }
 
 /// [`Surface::trace_chunk`] for upright regular pyramids (see the module doc), compiled for
@@ -104,7 +115,6 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     let mut tally = Tally::default();
     let mut obs = O::default();
     let n_layers = response.n_layers();
-    let kind = tex.kind();
     let side_in = incidence.side();
     let launcher = surface.launcher(incidence);
     // Rays of a fixed direction start at a uniform point of the unit cell in lattice
@@ -115,20 +125,17 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         (dir, tex.lab_to_lattice(dir), Polarised { s: pol.s, e1 })
     });
     let period = tex.period_um()[0];
-    let mut sample = FacetSample::default();
+    let mut samples = [FacetSample::default(); LANES];
     let mut lane_rng = Lanes4::from_stream(rng);
     let mut fl = Flight {
         packet: Packet::default(),
-        weight: [0.0; LANES],
+        stokes: [[0.0; LANES]; 4],
+        e1: [[0.0; LANES]; 3],
         below: [0; LANES],
         events: [0.0; LANES],
+        film: [[0.0; LANES]; MAX_FILM_LAYERS],
         active: [false; LANES],
-        pol: [Polarised {
-            s: [0.0; 4],
-            e1: Vec3::X,
-        }; LANES],
         start: [Vec3::Z; LANES],
-        film: [[0.0; MAX_FILM_LAYERS]; LANES],
     };
     let mut launched = 0u64;
     // Starts the next ray of the chunk in lane `l`, or retires the lane.
@@ -141,11 +148,8 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         let (start, o, d, pol) = match fixed {
             Some((lab, dir, pol)) => {
                 let (u, v) = (rng.uniform(), rng.uniform());
-                let o = Vec3::new(
-                    lesser(u * period, tex.period_below()),
-                    lesser(v * period, tex.period_below()),
-                    z_entry,
-                );
+                let edge = tex.period_below();
+                let o = Vec3::new(lesser(u * period, edge), lesser(v * period, edge), z_entry);
                 (lab, o, dir, pol)
             }
             None => {
@@ -161,18 +165,25 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
             }
         };
         set_ray(&mut fl.packet, l, o, d, NO_FACET);
-        fl.weight[l] = pol.s[0];
+        for (c, v) in pol.s.iter().enumerate() {
+            fl.stokes[c][l] = *v;
+        }
+        for (c, v) in pol.e1.to_array().iter().enumerate() {
+            fl.e1[c][l] = *v;
+        }
         fl.below[l] = u64::from(side_in == Side::Below).wrapping_neg();
         fl.events[l] = 0.0;
+        for layer in &mut fl.film[..n_layers] {
+            layer[l] = 0.0;
+        }
         fl.active[l] = true;
-        fl.pol[l] = pol;
         fl.start[l] = start;
-        fl.film[l][..n_layers].fill(0.0);
     };
     for l in 0..LANES {
         launch(&mut fl, l, rng);
     }
     let max_events = [f64::from(MAX_EVENTS); LANES];
+    let mut film = [0.0; MAX_FILM_LAYERS];
     while fl.active.contains(&true) {
         let active = mask(|l| fl.active[l]);
         let mut found = tex.cross_packet(&fl.packet);
@@ -189,44 +200,26 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         fl.events = pick(crossing, lanes(|l| fl.events[l] + 1.0), fl.events);
         let limited = and(crossing, mask(|l| fl.events[l] > max_events[l]));
         let crossing = and_not(crossing, limited);
-        let lost = if let Some(bare) = bare {
-            let u = lane_rng.uniform();
-            bare_events(tex, bare, &mut fl, &found, crossing, &u)
-        } else {
-            let mut lost = [0; LANES];
-            for (l, lost) in lost.iter_mut().enumerate() {
-                if !on(&crossing, l) {
-                    continue;
-                }
-                let face = found.face[l];
-                let dir = Vec3::new(fl.packet.dx[l], fl.packet.dy[l], fl.packet.dz[l]);
-                let step = surface.facet_event(
-                    response,
-                    kind,
-                    side(on(&fl.below, l)),
-                    dir,
-                    tex.lattice_normal(face),
-                    &mut fl.pol[l],
-                    rng,
-                    &mut fl.film[l][..n_layers],
-                    &mut sample,
-                );
-                fl.weight[l] = fl.pol[l].s[0];
-                match step {
-                    Step::Go(new_dir, to) => {
-                        fl.below[l] = u64::from(to == Side::Below).wrapping_neg();
-                        let point = Vec3::new(found.x[l], found.y[l], found.z[l]);
-                        set_ray(&mut fl.packet, l, point, new_dir, face);
-                    }
-                    Step::Extinguished => fl.weight[l] = 0.0,
-                    Step::Lost => *lost = u64::MAX,
-                }
-            }
-            lost
+        let u = lane_rng.uniform();
+        let (lost, spent) = match bare {
+            Some(bare) => bare_events(tex, bare, &mut fl, &found, crossing, &u),
+            None => sampled_events(
+                surface,
+                tex,
+                response,
+                &mut samples,
+                &mut fl,
+                &found,
+                crossing,
+                &u,
+            ),
         };
         // Rays that are done: left, extinguished, lost or stopped.
         let out = and(active, found.leaves);
-        let gone = and(crossing, or(lost, mask(|l| fl.weight[l] == 0.0)));
+        let gone = and(
+            crossing,
+            or(lost, or(spent, mask(|l| fl.stokes[0][l] == 0.0))),
+        );
         let done = or(or(out, gone), limited);
         if !any(&done) {
             continue;
@@ -252,16 +245,19 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
                 Outcome::Extinguished
             };
             let dir = Vec3::new(fl.packet.dx[l], fl.packet.dy[l], dz);
+            for (f, layer) in film.iter_mut().zip(&fl.film[..n_layers]) {
+                *f = layer[l];
+            }
             book(
                 &mut tally,
                 &mut obs,
                 side_in,
                 fl.start[l],
                 tex.lattice_to_lab(dir),
-                fl.weight[l],
+                fl.stokes[0][l],
                 outcome,
                 fl.events[l] as u32,
-                &fl.film[l][..n_layers],
+                &film[..n_layers],
             );
             launch(&mut fl, l, rng);
         }
@@ -277,10 +273,10 @@ fn side(below: bool) -> Side {
 
 /// Facet events of the `crossing` lanes on bare facets with unpolarised light: the
 /// formulas of [`Surface::facet_event`] (Fresnel split of
-/// [`fresnel_power`](super::response::fresnel_power), `surface::reflected`,
-/// `surface::refracted`) written statement by statement over the lanes: the split at the local
-/// angle, reflect or refract with probabilities ∝ R and T (uniform numbers `u`), the weight
-/// renormalised to R + T. Returns the lanes that met their facet from the wrong side.
+/// [`fresnel_power`](super::response::fresnel_power)) written statement by statement over
+/// the lanes: the split at the local angle, reflect or refract with probabilities ∝ R and T
+/// (uniform numbers `u`), the weight renormalised to R + T. Returns the lanes that met
+/// their facet from the wrong side, and those with R + T = 0 (none here).
 #[inline(always)]
 fn bare_events(
     tex: &RegularPyramids,
@@ -289,24 +285,9 @@ fn bare_events(
     found: &Crossings,
     crossing: M,
     u: &F,
-) -> M {
-    let p = &mut fl.packet;
-    let normals: [Vec3; LANES] = std::array::from_fn(|l| tex.lattice_normal(found.face[l].min(4)));
-    let (nx, ny, nz) = (
-        lanes(|l| normals[l].x),
-        lanes(|l| normals[l].y),
-        lanes(|l| normals[l].z),
-    );
-    let (kx, ky, kz) = (p.dx, p.dy, p.dz);
-    let kn = lanes(|l| kx[l] * nx[l] + ky[l] * ny[l] + kz[l] * nz[l]);
-    let below = fl.below;
-    // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa.
-    let consistent = or(
-        and(below, mask(|l| kn[l] > 0.0)),
-        and_not(mask(|l| kn[l] < 0.0), below),
-    );
-    let lost = and_not([u64::MAX; LANES], consistent);
-    let cos_i = lanes(|l| lesser(kn[l].abs(), 1.0));
+) -> (M, M) {
+    let hit = Meeting::new(tex, fl, found);
+    let (below, cos_i) = (fl.below, hit.cos_i);
     let n1 = pick(below, [bare.n_below; LANES], [bare.n_above; LANES]);
     let n2 = pick(below, [bare.n_above; LANES], [bare.n_below; LANES]);
     // fresnel_power, lane by lane
@@ -331,45 +312,181 @@ fn bare_events(
     );
     let total = lanes(|l| r[l] + t[l]);
     let reflect = mask(|l| u[l] * total[l] < r[l]);
-    // reflected and refracted, lane by lane
-    let two_kn = lanes(|l| 2.0 * kn[l]);
-    let refl = [
-        lanes(|l| kx[l] - two_kn[l] * nx[l]),
-        lanes(|l| ky[l] - two_kn[l] * ny[l]),
-        lanes(|l| kz[l] - two_kn[l] * nz[l]),
-    ];
-    let sign = pick(mask(|l| kn[l] < 0.0), [1.0; LANES], [-1.0; LANES]);
-    let facing = [
-        lanes(|l| sign[l] * nx[l]),
-        lanes(|l| sign[l] * ny[l]),
-        lanes(|l| sign[l] * nz[l]),
-    ];
-    let along = lanes(|l| eta[l] * cos_i[l] - cos_t[l]);
-    let k = [kx, ky, kz];
-    let raw: [F; 3] =
-        std::array::from_fn(|c| lanes(|l| eta[l] * k[c][l] + along[l] * facing[c][l]));
-    let inv_len = lanes(|l| {
-        1.0 / (raw[0][l] * raw[0][l] + raw[1][l] * raw[1][l] + raw[2][l] * raw[2][l]).sqrt()
+    fl.renormalise_unpolarised(crossing, &total);
+    hit.turn(fl, found, crossing, reflect, &eta);
+    (hit.lost, [0; LANES])
+}
+
+/// Facet events of the `crossing` lanes from the response's full sample (coated facets, or
+/// Stokes tracking): [`Surface::facet_event`] with the sample taken lane by lane and the
+/// film booking, the Stokes algebra (`polarisation::*_lanes`), the reflect/refract choice
+/// and the new directions computed over the lanes. Returns the lanes that met their facet
+/// from the wrong side, and those whose power all went into the films (R + T = 0).
+#[allow(clippy::too_many_arguments)]
+#[inline(always)]
+fn sampled_events<R: FacetResponse + ?Sized>(
+    surface: &Surface,
+    tex: &RegularPyramids,
+    response: &R,
+    samples: &mut [FacetSample; LANES],
+    fl: &mut Flight,
+    found: &Crossings,
+    crossing: M,
+    u: &F,
+) -> (M, M) {
+    let hit = Meeting::new(tex, fl, found);
+    let n_layers = response.n_layers();
+    for (l, sample) in samples.iter_mut().enumerate() {
+        if on(&crossing, l) {
+            let side = side(on(&fl.below, l));
+            response.sample(side, hit.cos_i[l], hit.n[2][l], sample);
+        }
+    }
+    let (r_s, r_p) = (field(samples, |x| x.r_s), field(samples, |x| x.r_p));
+    let (t_s, t_p) = (field(samples, |x| x.t_s), field(samples, |x| x.t_p));
+    let s_in = fl.stokes;
+    let (p_r, p_t);
+    match surface.polarisation {
+        PolarisationMode::Unpolarised => {
+            let w = s_in[0];
+            for (j, layer) in fl.film[..n_layers].iter_mut().enumerate() {
+                let (a_s, a_p) = (field(samples, |x| x.a_s[j]), field(samples, |x| x.a_p[j]));
+                let add = lanes(|l| layer[l] + w[l] * 0.5 * (a_s[l] + a_p[l]));
+                *layer = pick(crossing, add, *layer);
+            }
+            p_r = lanes(|l| 0.5 * (r_s[l] + r_p[l]));
+            p_t = lanes(|l| 0.5 * (t_s[l] + t_p[l]));
+            fl.renormalise_unpolarised(crossing, &lanes(|l| p_r[l] + p_t[l]));
+        }
+        PolarisationMode::Stokes => {
+            let k = [fl.packet.dx, fl.packet.dy, fl.packet.dz];
+            let s_hat = polarisation::s_axis_lanes(&k, &hit.n, &fl.e1);
+            let s = polarisation::rotate_into_lanes(&s_in, &fl.e1, &k, &s_hat);
+            for (j, layer) in fl.film[..n_layers].iter_mut().enumerate() {
+                let (a_s, a_p) = (field(samples, |x| x.a_s[j]), field(samples, |x| x.a_p[j]));
+                let a = polarisation::power_lanes(&s, &a_s, &a_p);
+                *layer = pick(crossing, lanes(|l| layer[l] + a[l]), *layer);
+            }
+            p_r = polarisation::power_lanes(&s, &r_s, &r_p);
+            p_t = polarisation::power_lanes(&s, &t_s, &t_p);
+            let total = lanes(|l| p_r[l] + p_t[l]);
+            let reflect = mask(|l| u[l] * total[l] < p_r[l]);
+            let pk = |a: F, b: F| pick(reflect, a, b);
+            let (x, y) = (
+                pk(
+                    field(samples, |x| x.r_cross.0),
+                    field(samples, |x| x.t_cross.0),
+                ),
+                pk(
+                    field(samples, |x| x.r_cross.1),
+                    field(samples, |x| x.t_cross.1),
+                ),
+            );
+            let out = polarisation::apply_lanes(&s, &pk(r_s, t_s), &pk(r_p, t_p), &x, &y);
+            let p = pk(p_r, p_t);
+            let scale = pick(
+                mask(|l| p[l] > 0.0),
+                lanes(|l| total[l] / p[l]),
+                [0.0; LANES],
+            );
+            fl.stokes =
+                std::array::from_fn(|c| pick(crossing, lanes(|l| out[c][l] * scale[l]), s_in[c]));
+            fl.e1 = std::array::from_fn(|c| pick(crossing, s_hat[c], fl.e1[c]));
+        }
+    }
+    let reflect = mask(|l| u[l] * (p_r[l] + p_t[l]) < p_r[l]);
+    let spent = mask(|l| p_r[l] + p_t[l] <= 0.0);
+    let (n_a, n_b) = ([surface.n_above; LANES], [surface.n_below; LANES]);
+    let eta = lanes(|l| {
+        let below = on(&fl.below, l);
+        if below {
+            n_b[l] / n_a[l]
+        } else {
+            n_a[l] / n_b[l]
+        }
     });
-    let refr: [F; 3] = std::array::from_fn(|c| {
-        pick(
-            tir,
-            lanes(|l| -facing[c][l]),
-            lanes(|l| raw[c][l] * inv_len[l]),
-        )
-    });
-    let go = crossing;
-    fl.weight = pick(go, lanes(|l| fl.weight[l] * total[l]), fl.weight);
-    fl.below = std::array::from_fn(|l| below[l] ^ (go[l] & !reflect[l]));
-    let dir: [F; 3] = std::array::from_fn(|c| pick(reflect, refl[c], refr[c]));
-    p.ox = pick(go, found.x, p.ox);
-    p.oy = pick(go, found.y, p.oy);
-    p.oz = pick(go, found.z, p.oz);
-    p.dx = pick(go, dir[0], p.dx);
-    p.dy = pick(go, dir[1], p.dy);
-    p.dz = pick(go, dir[2], p.dz);
-    p.skip = std::array::from_fn(|l| if on(&go, l) { found.face[l] } else { p.skip[l] });
-    lost
+    hit.turn(fl, found, and_not(crossing, spent), reflect, &eta);
+    (hit.lost, spent)
+}
+
+/// One field of the lanes' samples, as lanes.
+#[inline(always)]
+fn field(samples: &[FacetSample; LANES], f: impl Fn(&FacetSample) -> f64) -> F {
+    lanes(|l| f(&samples[l]))
+}
+
+/// Where the lanes meet their facets: the facet normals (lattice frame), k·n, the cosine
+/// of incidence, and the lanes that met the facet from the wrong side.
+struct Meeting {
+    n: [F; 3],
+    k_dot_n: F,
+    cos_i: F,
+    lost: M,
+}
+
+impl Meeting {
+    #[inline(always)]
+    fn new(tex: &RegularPyramids, fl: &Flight, found: &Crossings) -> Meeting {
+        let normals: [Vec3; LANES] =
+            std::array::from_fn(|l| tex.lattice_normal(found.face[l].min(4)));
+        let n = [
+            lanes(|l| normals[l].x),
+            lanes(|l| normals[l].y),
+            lanes(|l| normals[l].z),
+        ];
+        let p = &fl.packet;
+        let kn = lanes(|l| (p.dx[l] * n[0][l] + p.dy[l] * n[1][l]) + p.dz[l] * n[2][l]);
+        // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa.
+        let consistent = or(
+            and(fl.below, mask(|l| kn[l] > 0.0)),
+            and_not(mask(|l| kn[l] < 0.0), fl.below),
+        );
+        Meeting {
+            n,
+            k_dot_n: kn,
+            cos_i: lanes(|l| lesser(kn[l].abs(), 1.0)),
+            lost: and_not([u64::MAX; LANES], consistent),
+        }
+    }
+
+    /// Sends the `go` lanes on from their crossing points: reflected where `reflect`,
+    /// refracted (index ratio `eta`) elsewhere, into the other medium — the formulas of
+    /// `surface::reflected` and `surface::refracted`, lane by lane.
+    #[inline(always)]
+    fn turn(&self, fl: &mut Flight, found: &Crossings, go: M, reflect: M, eta: &F) {
+        let (n, kn, cos_i) = (&self.n, &self.k_dot_n, &self.cos_i);
+        let p = &mut fl.packet;
+        let k = [p.dx, p.dy, p.dz];
+        let two_kn = lanes(|l| 2.0 * kn[l]);
+        let refl: [F; 3] = std::array::from_fn(|c| lanes(|l| k[c][l] - two_kn[l] * n[c][l]));
+        let sign = pick(mask(|l| kn[l] < 0.0), [1.0; LANES], [-1.0; LANES]);
+        let facing: [F; 3] = std::array::from_fn(|c| lanes(|l| sign[l] * n[c][l]));
+        let sin2_t = lanes(|l| eta[l] * eta[l] * (1.0 - cos_i[l] * cos_i[l]));
+        let cos_t = lanes(|l| greater(1.0 - sin2_t[l], 0.0).sqrt());
+        let along = lanes(|l| eta[l] * cos_i[l] - cos_t[l]);
+        let raw: [F; 3] =
+            std::array::from_fn(|c| lanes(|l| eta[l] * k[c][l] + along[l] * facing[c][l]));
+        let inv_len = lanes(|l| {
+            1.0 / ((raw[0][l] * raw[0][l] + raw[1][l] * raw[1][l]) + raw[2][l] * raw[2][l]).sqrt()
+        });
+        let no_angle = mask(|l| sin2_t[l] >= 1.0);
+        let refr: [F; 3] = std::array::from_fn(|c| {
+            pick(
+                no_angle,
+                lanes(|l| -facing[c][l]),
+                lanes(|l| raw[c][l] * inv_len[l]),
+            )
+        });
+        let dir: [F; 3] = std::array::from_fn(|c| pick(reflect, refl[c], refr[c]));
+        fl.below = std::array::from_fn(|l| fl.below[l] ^ (go[l] & !reflect[l]));
+        p.ox = pick(go, found.x, p.ox);
+        p.oy = pick(go, found.y, p.oy);
+        p.oz = pick(go, found.z, p.oz);
+        p.dx = pick(go, dir[0], p.dx);
+        p.dy = pick(go, dir[1], p.dy);
+        p.dz = pick(go, dir[2], p.dz);
+        p.skip = std::array::from_fn(|l| if on(&go, l) { found.face[l] } else { p.skip[l] });
+    }
 }
 
 /// Puts a ray into lane `l` of `packet`.

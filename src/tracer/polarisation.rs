@@ -13,6 +13,7 @@
 //! CRC Press 2018; the sign of the Y terms follows from the S₃ definition above).
 
 use crate::geometry::Vec3;
+use crate::geometry::lanes::{F, lanes, mask, pick};
 
 /// A Stokes vector and its reference axis e₁ (unit, ⊥ to the ray direction).
 #[derive(Clone, Copy, Debug)]
@@ -66,6 +67,67 @@ pub fn s_axis(k: Vec3, n: Vec3, fallback: Vec3) -> Vec3 {
     let c = k.cross(n);
     let l2 = c.length_squared();
     if l2 < 1e-24 { fallback } else { c / l2.sqrt() }
+}
+
+/// [`s_axis`] for a packet of rays, lane by lane (vectors as x, y, z lanes): the same
+/// operations in the same order, so every lane equals the scalar result bit for bit.
+#[inline(always)]
+pub fn s_axis_lanes(k: &[F; 3], n: &[F; 3], fallback: &[F; 3]) -> [F; 3] {
+    let c = cross_lanes(k, n);
+    let l2 = lanes(|l| (c[0][l] * c[0][l] + c[1][l] * c[1][l]) + c[2][l] * c[2][l]);
+    let tiny = mask(|l| l2[l] < 1e-24);
+    let len = lanes(|l| l2[l].sqrt());
+    std::array::from_fn(|i| pick(tiny, fallback[i], lanes(|l| c[i][l] / len[l])))
+}
+
+/// [`rotate_into`] for a packet of rays, lane by lane (bit for bit the scalar result).
+#[inline(always)]
+pub fn rotate_into_lanes(s: &[F; 4], e1: &[F; 3], k: &[F; 3], s_hat: &[F; 3]) -> [F; 4] {
+    let e2 = cross_lanes(k, e1);
+    let dot = |a: &[F; 3], b: &[F; 3]| {
+        lanes(|l| (a[0][l] * b[0][l] + a[1][l] * b[1][l]) + a[2][l] * b[2][l])
+    };
+    let (c, sn) = (dot(e1, s_hat), dot(&e2, s_hat));
+    let norm = lanes(|l| c[l] * c[l] + sn[l] * sn[l]);
+    let c2 = lanes(|l| (c[l] * c[l] - sn[l] * sn[l]) / norm[l]);
+    let s2 = lanes(|l| 2.0 * c[l] * sn[l] / norm[l]);
+    let keep = mask(|l| norm[l] == 0.0);
+    [
+        s[0],
+        pick(keep, s[1], lanes(|l| c2[l] * s[1][l] + s2[l] * s[2][l])),
+        pick(keep, s[2], lanes(|l| -s2[l] * s[1][l] + c2[l] * s[2][l])),
+        s[3],
+    ]
+}
+
+/// [`power`] for a packet of rays, lane by lane.
+#[inline(always)]
+pub fn power_lanes(s: &[F; 4], c_s: &F, c_p: &F) -> F {
+    lanes(|l| 0.5 * ((c_s[l] + c_p[l]) * s[0][l] + (c_s[l] - c_p[l]) * s[1][l]))
+}
+
+/// [`apply`] for a packet of rays, lane by lane (cross term as its real and imaginary
+/// parts).
+#[inline(always)]
+pub fn apply_lanes(s: &[F; 4], c_s: &F, c_p: &F, x: &F, y: &F) -> [F; 4] {
+    let sum = lanes(|l| 0.5 * (c_s[l] + c_p[l]));
+    let dif = lanes(|l| 0.5 * (c_s[l] - c_p[l]));
+    [
+        lanes(|l| sum[l] * s[0][l] + dif[l] * s[1][l]),
+        lanes(|l| dif[l] * s[0][l] + sum[l] * s[1][l]),
+        lanes(|l| x[l] * s[2][l] + y[l] * s[3][l]),
+        lanes(|l| -y[l] * s[2][l] + x[l] * s[3][l]),
+    ]
+}
+
+/// a × b lane by lane, in the component order of [`Vec3::cross`].
+#[inline(always)]
+fn cross_lanes(a: &[F; 3], b: &[F; 3]) -> [F; 3] {
+    [
+        lanes(|l| a[1][l] * b[2][l] - b[1][l] * a[2][l]),
+        lanes(|l| a[2][l] * b[0][l] - b[2][l] * a[0][l]),
+        lanes(|l| a[0][l] * b[1][l] - b[0][l] * a[1][l]),
+    ]
 }
 
 #[cfg(test)]
@@ -123,5 +185,52 @@ mod tests {
         let out = apply(&s, 1.0, 1.0, (0.6, 0.8)); // pure retarder, |x+iy| = 1
         let dop = |v: [f64; 4]| (v[1] * v[1] + v[2] * v[2] + v[3] * v[3]).sqrt() / v[0];
         assert!((dop(out) - dop(s)).abs() < 1e-14);
+    }
+
+    #[test]
+    fn lane_versions_equal_the_scalar_functions_bit_for_bit() {
+        use crate::geometry::lanes::LANES;
+        // The packet tracer's lane-wise Stokes algebra must be the scalar algebra exactly.
+        let mut rng = crate::sampling::Stream::new(9, 9, 9);
+        let mut unit = || {
+            let v = Vec3::new(
+                rng.uniform() - 0.5,
+                rng.uniform() - 0.5,
+                rng.uniform() - 0.5,
+            );
+            v.normalize()
+        };
+        for round in 0..200 {
+            let k: [Vec3; LANES] = std::array::from_fn(|_| unit());
+            let mut n: [Vec3; LANES] = std::array::from_fn(|_| unit());
+            if round % 7 == 0 {
+                n[1] = -k[1]; // normal incidence: the fallback axis
+            }
+            let e1: [Vec3; LANES] = std::array::from_fn(|l| k[l].cross(unit()).normalize());
+            let s: [[f64; 4]; LANES] =
+                std::array::from_fn(|l| [1.0, 0.1 * l as f64, -0.2, 0.3 - 0.05 * l as f64]);
+            let soa = |v: &[Vec3; LANES]| -> [F; 3] {
+                [
+                    std::array::from_fn(|l| v[l].x),
+                    std::array::from_fn(|l| v[l].y),
+                    std::array::from_fn(|l| v[l].z),
+                ]
+            };
+            let s4: [F; 4] = std::array::from_fn(|i| std::array::from_fn(|l| s[l][i]));
+            let hat = s_axis_lanes(&soa(&k), &soa(&n), &soa(&e1));
+            let rot = rotate_into_lanes(&s4, &soa(&e1), &soa(&k), &hat);
+            let (cs, cp, x, y) = ([0.3; LANES], [0.7; LANES], [0.2; LANES], [-0.4; LANES]);
+            let pw = power_lanes(&rot, &cs, &cp);
+            let out = apply_lanes(&rot, &cs, &cp, &x, &y);
+            for l in 0..LANES {
+                let h = s_axis(k[l], n[l], e1[l]);
+                assert_eq!([hat[0][l], hat[1][l], hat[2][l]], h.to_array());
+                let r = rotate_into(s[l], e1[l], k[l], h);
+                assert_eq!(std::array::from_fn::<f64, 4, _>(|i| rot[i][l]), r);
+                assert_eq!(pw[l], power(&r, 0.3, 0.7));
+                let o = apply(&r, 0.3, 0.7, (0.2, -0.4));
+                assert_eq!(std::array::from_fn::<f64, 4, _>(|i| out[i][l]), o);
+            }
+        }
     }
 }
