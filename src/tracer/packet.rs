@@ -290,8 +290,9 @@ fn bare_events(
     let (below, cos_i) = (fl.below, hit.cos_i);
     let n1 = pick(below, [bare.n_below; LANES], [bare.n_above; LANES]);
     let n2 = pick(below, [bare.n_above; LANES], [bare.n_below; LANES]);
-    // fresnel_power, lane by lane
-    let eta = lanes(|l| n1[l] / n2[l]);
+    // fresnel_power, lane by lane (n1/n2 of the two sides computed once)
+    let (up, down) = (bare.n_above / bare.n_below, bare.n_below / bare.n_above);
+    let eta = pick(below, [down; LANES], [up; LANES]);
     let sin2_t = lanes(|l| eta[l] * eta[l] * (1.0 - cos_i[l] * cos_i[l]));
     let cos_t = lanes(|l| greater(1.0 - sin2_t[l], 0.0).sqrt());
     let rs = lanes(|l| {
@@ -396,15 +397,11 @@ fn sampled_events<R: FacetResponse + ?Sized>(
     }
     let reflect = mask(|l| u[l] * (p_r[l] + p_t[l]) < p_r[l]);
     let spent = mask(|l| p_r[l] + p_t[l] <= 0.0);
-    let (n_a, n_b) = ([surface.n_above; LANES], [surface.n_below; LANES]);
-    let eta = lanes(|l| {
-        let below = on(&fl.below, l);
-        if below {
-            n_b[l] / n_a[l]
-        } else {
-            n_a[l] / n_b[l]
-        }
-    });
+    let (up, down) = (
+        surface.n_above / surface.n_below,
+        surface.n_below / surface.n_above,
+    );
+    let eta = pick(fl.below, [down; LANES], [up; LANES]);
     hit.turn(fl, found, and_not(crossing, spent), reflect, &eta);
     (hit.lost, spent)
 }

@@ -162,8 +162,13 @@ impl Tally {
 /// Polar bin (10° wide) of a direction with |cos θ| = `abs_cos`.
 #[inline]
 pub fn polar_bin(abs_cos: f64) -> usize {
-    // θ ≥ 10°·k ⇔ |cos θ| ≤ cos(10°·k): count the bin edges the direction is past.
-    POLAR_EDGE_COS.iter().take_while(|&&c| abs_cos <= c).count()
+    // θ ≥ 10°·k ⇔ |cos θ| ≤ cos(10°·k): count the bin edges the direction is past (all of
+    // them, without an early exit: the edges decrease, so it is the same count, and no
+    // branch to mispredict).
+    POLAR_EDGE_COS
+        .iter()
+        .map(|&c| usize::from(abs_cos <= c))
+        .sum()
 }
 
 /// cos(10°·k), k = 1..8: the inner edges of the polar histogram bins.
