@@ -102,6 +102,22 @@ fn tracer(c: &mut Criterion) {
             b.iter(|| pool1.install(|| black_box(s.trace::<()>(&inc, RAYS, 7, 0))))
         });
     }
+    // The same regular-pyramid case without ray packets (`tracer::packet`), for comparison.
+    let s = surface(&pyramids, &bare, PolarisationMode::Unpolarised);
+    let events = (events_per_ray(&s, &inc) * RAYS as f64) as u64;
+    g.throughput(Throughput::Elements(events));
+    g.bench_function("pyramids_bare_unpolarised_one_ray_at_a_time", |b| {
+        b.iter(|| {
+            let chunk = lightfold::tracer::RAYS_PER_CHUNK;
+            let mut tally = lightfold::tracer::Tally::default();
+            for k in 0..RAYS.div_ceil(chunk) {
+                let mut rng = lightfold::sampling::Stream::new(7, 0, k);
+                let rays = chunk.min(RAYS - k * chunk);
+                tally.merge(&s.trace_chunk_one_at_a_time::<()>(&inc, rays, &mut rng).0);
+            }
+            black_box(tally)
+        })
+    });
     g.finish();
 
     // Many chunks, so that two threads share the work evenly (chunks are fixed at

@@ -621,3 +621,63 @@ fn height_map_edges_and_vertices_are_watertight() {
         100_000,
     );
 }
+
+#[test]
+#[ignore = "slow: 10^7 rays"]
+fn packet_tracer_loses_no_ray_in_10_million() {
+    // Upright regular pyramids are traced in ray packets (tracer::packet): whole paths, from
+    // both sides, at normal and grazing incidence, on touching, gapped, rotated and shallow
+    // pyramids; every ray must end booked (no numerical loss) and energy must balance.
+    use lightfold::tracer::{
+        BareInterface, Incidence, InputPolarisation, PolarisationMode, Surface,
+    };
+    let specs = [
+        RegularPyramidsSpec::upright(5.0),
+        RegularPyramidsSpec {
+            period_um: 6.0,
+            rotation_deg: 20.0,
+            ..RegularPyramidsSpec::upright(5.0)
+        },
+        RegularPyramidsSpec {
+            base_angle_deg: 30.0,
+            ..RegularPyramidsSpec::upright(2.0)
+        },
+    ];
+    let bare = BareInterface {
+        n_above: 1.0,
+        n_below: 3.6,
+    };
+    let incidences = [
+        Incidence::Above {
+            theta: 0.0,
+            phi: 0.0,
+            polarisation: InputPolarisation::Unpolarised,
+        },
+        Incidence::Above {
+            theta: 1.45,
+            phi: 0.7,
+            polarisation: InputPolarisation::P,
+        },
+        Incidence::BelowIsotropic,
+    ];
+    let mut total = 0;
+    for (n, spec) in specs.into_iter().enumerate() {
+        let tex = RegularPyramids::new(spec).unwrap();
+        for (m, inc) in incidences.iter().enumerate() {
+            for mode in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
+                let surf = Surface {
+                    texture: &tex,
+                    response: &bare,
+                    n_above: 1.0,
+                    n_below: 3.6,
+                    polarisation: mode,
+                };
+                let (tally, ()) = surf.trace(inc, 560_000, 31, (10 * n + m) as u64);
+                assert_eq!(tally.lost_rays, 0, "spec {n}, incidence {m}, {mode:?}");
+                assert!(tally.energy_error() < 1e-9, "spec {n}, incidence {m}");
+                total += tally.rays;
+            }
+        }
+    }
+    assert!(total >= 10_000_000, "only {total} rays");
+}
