@@ -532,6 +532,149 @@ mod tests {
     use num_complex::Complex64;
 
     #[test]
+    fn lane_events_equal_the_one_ray_facet_event_bit_for_bit() {
+        // bare_events and sampled_events are Surface::facet_event written over lanes: fed the
+        // same uniform number, every lane must come out with the same direction, medium,
+        // Stokes vector, reference axis and film absorption, to the bit.
+        use crate::texture::SurfaceKind;
+        use crate::tracer::surface::Step;
+        let tex = RegularPyramids::new(RegularPyramidsSpec::upright(5.0)).unwrap();
+        let stack = FilmStack::new(
+            Complex64::new(1.0, 0.0),
+            vec![
+                Layer::new(Complex64::new(2.05, 0.02), 75.0),
+                Layer::new(Complex64::new(1.46, 0.001), 20.0),
+            ],
+            Complex64::new(3.9, 0.0),
+        )
+        .unwrap();
+        let coated = CoatedInterface::new(&stack, 500.0, CoatingGeometry::Conformal, &[]).unwrap();
+        let bare = BareInterface {
+            n_above: 1.0,
+            n_below: 3.9,
+        };
+        let responses: [&dyn FacetResponse; 2] = [&bare, &coated];
+        let mut draw = Stream::new(1, 2, 3);
+        for response in responses {
+            for polarisation in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
+                let surface = Surface {
+                    texture: &tex,
+                    response,
+                    n_above: 1.0,
+                    n_below: 3.9,
+                    polarisation,
+                };
+                let n_layers = response.n_layers();
+                let lanes_bare = (n_layers == 0 && polarisation == PolarisationMode::Unpolarised)
+                    .then_some(&bare);
+                for trial in 0..500u64 {
+                    let mut fl = Flight {
+                        packet: Packet::default(),
+                        stokes: [[0.0; LANES]; 4],
+                        e1: [[0.0; LANES]; 3],
+                        below: [0; LANES],
+                        events: [0.0; LANES],
+                        film: [[0.0; LANES]; MAX_FILM_LAYERS],
+                        active: [true; LANES],
+                        start: [Vec3::Z; LANES],
+                    };
+                    let mut found = Crossings {
+                        crosses: [u64::MAX; LANES],
+                        leaves: [0; LANES],
+                        face: [0; LANES],
+                        x: [1.0; LANES],
+                        y: [2.0; LANES],
+                        z: [0.5; LANES],
+                    };
+                    let mut scalar = Vec::new();
+                    let mut u = [0.0; LANES];
+                    for l in 0..LANES {
+                        let face = (draw.next_u64() % 4) as u32;
+                        let n = tex.lattice_normal(face);
+                        let below = draw.uniform() < 0.5;
+                        let mut k = Vec3::new(
+                            draw.uniform() - 0.5,
+                            draw.uniform() - 0.5,
+                            draw.uniform() - 0.5,
+                        )
+                        .normalize();
+                        if (k.dot(n) > 0.0) != below {
+                            k = -k;
+                        }
+                        let e1 = k.cross(Vec3::new(0.3, -0.2, 0.9)).normalize();
+                        let st = [1.0, 0.3 * draw.uniform(), -0.4 * draw.uniform(), 0.5];
+                        found.face[l] = face;
+                        set_ray(&mut fl.packet, l, Vec3::ZERO, k, face);
+                        fl.below[l] = u64::from(below).wrapping_neg();
+                        for c in 0..4 {
+                            fl.stokes[c][l] = st[c];
+                        }
+                        for (c, v) in e1.to_array().into_iter().enumerate() {
+                            fl.e1[c][l] = v;
+                        }
+                        // The one-ray event, drawing its uniform from a copy of the stream.
+                        let mut rng = Stream::new(7, trial, l as u64);
+                        u[l] = rng.clone().uniform();
+                        let mut pol = Polarised { s: st, e1 };
+                        let mut film = [0.0; MAX_FILM_LAYERS];
+                        let mut sample = FacetSample::default();
+                        let side = if below { Side::Below } else { Side::Above };
+                        let step = surface.facet_event(
+                            response,
+                            SurfaceKind::Geometric,
+                            side,
+                            k,
+                            n,
+                            &mut pol,
+                            &mut rng,
+                            &mut film[..n_layers],
+                            &mut sample,
+                        );
+                        let Step::Go(dir, to) = step else {
+                            panic!("consistent rays and lossless films must go on")
+                        };
+                        scalar.push((dir, to, pol, film));
+                    }
+                    let all = [u64::MAX; LANES];
+                    if let Some(bare) = lanes_bare {
+                        bare_events(&tex, bare, &mut fl, &found, all, &u);
+                    } else {
+                        let mut samples = [FacetSample::default(); LANES];
+                        sampled_events(
+                            &surface,
+                            &tex,
+                            response,
+                            &mut samples,
+                            &mut fl,
+                            &found,
+                            all,
+                            &u,
+                        );
+                    }
+                    for (l, (dir, to, pol, film)) in scalar.iter().enumerate() {
+                        let p = &fl.packet;
+                        assert_eq!([p.dx[l], p.dy[l], p.dz[l]], dir.to_array(), "lane {l}");
+                        assert_eq!(side(on(&fl.below, l)), *to);
+                        assert_eq!(
+                            [
+                                fl.stokes[0][l],
+                                fl.stokes[1][l],
+                                fl.stokes[2][l],
+                                fl.stokes[3][l]
+                            ],
+                            pol.s
+                        );
+                        assert_eq!([fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]], pol.e1.to_array());
+                        for j in 0..n_layers {
+                            assert_eq!(fl.film[j][l], film[j]);
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
     fn simd_and_baseline_builds_give_the_same_bits() {
         // The AVX2 build (where the processor has it) and the baseline build run the same
         // IEEE operations lane by lane (no FMA), so a chunk's tally must not depend on which
