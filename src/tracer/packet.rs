@@ -588,7 +588,7 @@ mod tests {
                     };
                     let mut scalar = Vec::new();
                     let mut u = [0.0; LANES];
-                    for l in 0..LANES {
+                    for (l, u_l) in u.iter_mut().enumerate() {
                         let face = (draw.next_u64() % 4) as u32;
                         let n = tex.lattice_normal(face);
                         let below = draw.uniform() < 0.5;
@@ -606,15 +606,15 @@ mod tests {
                         found.face[l] = face;
                         set_ray(&mut fl.packet, l, Vec3::ZERO, k, face);
                         fl.below[l] = u64::from(below).wrapping_neg();
-                        for c in 0..4 {
-                            fl.stokes[c][l] = st[c];
+                        for (c, v) in st.iter().enumerate() {
+                            fl.stokes[c][l] = *v;
                         }
                         for (c, v) in e1.to_array().into_iter().enumerate() {
                             fl.e1[c][l] = v;
                         }
                         // The one-ray event, drawing its uniform from a copy of the stream.
                         let mut rng = Stream::new(7, trial, l as u64);
-                        u[l] = rng.clone().uniform();
+                        *u_l = rng.clone().uniform();
                         let mut pol = Polarised { s: st, e1 };
                         let mut film = [0.0; MAX_FILM_LAYERS];
                         let mut sample = FacetSample::default();
@@ -665,8 +665,8 @@ mod tests {
                             pol.s
                         );
                         assert_eq!([fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]], pol.e1.to_array());
-                        for j in 0..n_layers {
-                            assert_eq!(fl.film[j][l], film[j]);
+                        for (layer, f) in fl.film.iter().zip(&film[..n_layers]) {
+                            assert_eq!(layer[l], *f);
                         }
                     }
                 }
