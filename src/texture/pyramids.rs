@@ -1029,9 +1029,9 @@ impl RegularPyramids {
         let step_y = pick(north, [1.0; LANES], [-1.0; LANES]);
         let (mut i, mut j) = ([0.0; LANES], [0.0; LANES]);
         let to_edge = |c: &F, x: &F, dx: &F, pos: M, neg: M| {
-            let ahead = lanes(|l| ((c[l] + 1.0) * per - x[l]) / dx[l]);
-            let behind = lanes(|l| (c[l] * per - x[l]) / dx[l]);
-            pick(pos, ahead, pick(neg, behind, inf))
+            let wall = pick(pos, lanes(|l| c[l] + 1.0), *c);
+            let t = lanes(|l| (wall[l] * per - x[l]) / dx[l]);
+            pick(or(pos, neg), t, inf)
         };
         for _ in 0..4 {
             if !any(&walking) {
