@@ -926,17 +926,17 @@ impl RegularPyramids {
     }
 
     /// The hit, in the lab frame, at lattice-frame (x, y) on `facet` (snapped onto its plane,
-    /// with the error box of [`Self::fast_hit_at`]): where a packet lane continues from when
-    /// it asks [`Texture::intersect_after`].
+    /// with the error box of `fast_hit_at`): where a packet lane continues from when it asks
+    /// [`Texture::intersect_after`].
     pub fn cell_hit(&self, x: f64, y: f64, facet: u32) -> Hit {
         let plane = &self.planes[facet as usize];
         let err = snapped_err(x, y, plane.z_err(x, y));
         self.lab_hit(0.0, x, y, plane.z_at(x, y), err, facet)
     }
 
-    /// [`Self::convex_crossing`] for [`LANES`] rays at once (upright pyramids only, see
-    /// [`Self::has_packet_path`]): the same three kinds of query, decisions and margins,
-    /// written statement by statement over the lanes without branches, so that each
+    /// The cone shortcut (`convex_crossing`) for [`LANES`] rays at once (upright pyramids
+    /// only, see [`Self::has_packet_path`]): the same three kinds of query, decisions and
+    /// margins, written statement by statement over the lanes without branches, so that each
     /// statement compiles to one SIMD instruction. Lanes it cannot decide have neither flag
     /// set (see [`Crossings`]).
     #[inline(always)]

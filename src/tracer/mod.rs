@@ -1,5 +1,6 @@
-//! Walks rays through one textured, coated interface (`surface`) and through the whole wafer
-//! (`wafer_trace`, later); events go into a [`Tally`].
+//! Walks rays through one textured, coated interface (`surface`; upright regular pyramids
+//! four rays at a time in SIMD lanes, `packet`) and through the whole wafer (`wafer_trace`);
+//! events go into a [`Tally`].
 //!
 //! Invariant: every figure comes with its standard error; for every ray the booked powers
 //! (reflected, transmitted, film layers, abandoned) add up to its initial weight.
