@@ -3,10 +3,11 @@
 //! Same physics and bookkeeping as [`Surface::trace_chunk`] one ray at a time; only the order
 //! of work differs. Every round asks the texture for the next crossing of all lanes together
 //! ([`RegularPyramids::cross_packet`], laid out for SIMD), hands lanes it cannot decide to
-//! the robust one-ray walk, applies the facet event of every lane that crossed — bare facets
-//! with unpolarised light lane by lane without branches ([`bare_events`]), anything else
-//! through [`Surface::facet_event`] — and refills the lane of a finished ray with the next
-//! ray of the chunk. Lanes keep their rays in the texture's lattice frame (directions,
+//! the robust one-ray walk, applies the facet event of every lane that crossed (the
+//! formulas of [`Surface::facet_event`] over the lanes: entirely for bare facets with
+//! unpolarised light, [`bare_events`]; with the response's sample taken lane by lane
+//! otherwise, [`sampled_events`]), and refills the lane of a finished ray with the next ray
+//! of the chunk. Lanes keep their rays in the texture's lattice frame (directions,
 //! Stokes reference axes); rays are rotated into it at launch and back when they leave.
 //!
 //! Invariant: the chunk's random streams are drawn in a fixed order (rounds, then lanes), so
@@ -108,6 +109,8 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     rng: &mut Stream,
 ) -> (Tally, O) {
     debug_assert!(tex.has_packet_path());
+    // (`response` is `surface.response` with its concrete type; the bare-facet path needs
+    // to know whether that type is `BareInterface`.)
     let erased: &dyn Any = surface.response;
     let bare = erased
         .downcast_ref::<BareInterface>()
@@ -125,6 +128,11 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         (dir, tex.lab_to_lattice(dir), Polarised { s: pol.s, e1 })
     });
     let period = tex.period_um()[0];
+    // Index ratios n₁/n₂ for refraction from above and from below.
+    let ratios = (
+        surface.n_above / surface.n_below,
+        surface.n_below / surface.n_above,
+    );
     let mut samples = [FacetSample::default(); LANES];
     let mut lane_rng = Lanes4::from_stream(rng);
     let mut fl = Flight {
@@ -202,9 +210,10 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         let crossing = and_not(crossing, limited);
         let u = lane_rng.uniform();
         let (lost, spent) = match bare {
-            Some(bare) => bare_events(tex, bare, &mut fl, &found, crossing, &u),
+            Some(bare) => bare_events(tex, bare, ratios, &mut fl, &found, crossing, &u),
             None => sampled_events(
                 surface,
+                ratios,
                 tex,
                 response,
                 &mut samples,
@@ -281,6 +290,7 @@ fn side(below: bool) -> Side {
 fn bare_events(
     tex: &RegularPyramids,
     bare: &BareInterface,
+    ratios: (f64, f64),
     fl: &mut Flight,
     found: &Crossings,
     crossing: M,
@@ -314,7 +324,7 @@ fn bare_events(
     let total = lanes(|l| r[l] + t[l]);
     let reflect = mask(|l| u[l] * total[l] < r[l]);
     fl.renormalise_unpolarised(crossing, &total);
-    hit.turn(fl, found, crossing, reflect, &eta);
+    hit.turn(fl, found, crossing, reflect, ratios);
     (hit.lost, [0; LANES])
 }
 
@@ -327,6 +337,7 @@ fn bare_events(
 #[inline(always)]
 fn sampled_events<R: FacetResponse + ?Sized>(
     surface: &Surface,
+    ratios: (f64, f64),
     tex: &RegularPyramids,
     response: &R,
     samples: &mut [FacetSample; LANES],
@@ -397,12 +408,7 @@ fn sampled_events<R: FacetResponse + ?Sized>(
     }
     let reflect = mask(|l| u[l] * (p_r[l] + p_t[l]) < p_r[l]);
     let spent = mask(|l| p_r[l] + p_t[l] <= 0.0);
-    let (up, down) = (
-        surface.n_above / surface.n_below,
-        surface.n_below / surface.n_above,
-    );
-    let eta = pick(fl.below, [down; LANES], [up; LANES]);
-    hit.turn(fl, found, and_not(crossing, spent), reflect, &eta);
+    hit.turn(fl, found, and_not(crossing, spent), reflect, ratios);
     (hit.lost, spent)
 }
 
@@ -447,10 +453,12 @@ impl Meeting {
     }
 
     /// Sends the `go` lanes on from their crossing points: reflected where `reflect`,
-    /// refracted (index ratio `eta`) elsewhere, into the other medium — the formulas of
-    /// `surface::reflected` and `surface::refracted`, lane by lane.
+    /// refracted elsewhere, into the other medium — the formulas of `surface::reflected` and
+    /// `surface::refracted`, lane by lane. `ratios` are the surface's n_above/n_below and
+    /// n_below/n_above (the index ratio for rays from above and from below).
     #[inline(always)]
-    fn turn(&self, fl: &mut Flight, found: &Crossings, go: M, reflect: M, eta: &F) {
+    fn turn(&self, fl: &mut Flight, found: &Crossings, go: M, reflect: M, ratios: (f64, f64)) {
+        let eta = &pick(fl.below, [ratios.1; LANES], [ratios.0; LANES]);
         let (n, kn, cos_i) = (&self.n, &self.k_dot_n, &self.cos_i);
         let p = &mut fl.packet;
         let k = [p.dx, p.dy, p.dz];
@@ -565,6 +573,7 @@ mod tests {
                     polarisation,
                 };
                 let n_layers = response.n_layers();
+                let ratios = (1.0 / 3.9, 3.9);
                 let lanes_bare = (n_layers == 0 && polarisation == PolarisationMode::Unpolarised)
                     .then_some(&bare);
                 for trial in 0..500u64 {
@@ -637,11 +646,12 @@ mod tests {
                     }
                     let all = [u64::MAX; LANES];
                     if let Some(bare) = lanes_bare {
-                        bare_events(&tex, bare, &mut fl, &found, all, &u);
+                        bare_events(&tex, bare, ratios, &mut fl, &found, all, &u);
                     } else {
                         let mut samples = [FacetSample::default(); LANES];
                         sampled_events(
                             &surface,
+                            ratios,
                             &tex,
                             response,
                             &mut samples,
