@@ -842,6 +842,20 @@ pub struct Packet {
     pub skip: [u32; LANES],
 }
 
+impl Packet {
+    /// Puts the ray from `o` along `d`, having left facet `skip`, into lane `l`.
+    #[inline(always)]
+    pub fn set(&mut self, l: usize, o: Vec3, d: Vec3, skip: u32) {
+        self.ox[l] = o.x;
+        self.oy[l] = o.y;
+        self.oz[l] = o.z;
+        self.dx[l] = d.x;
+        self.dy[l] = d.y;
+        self.dz[l] = d.z;
+        self.skip[l] = skip;
+    }
+}
+
 impl Default for Packet {
     fn default() -> Self {
         Packet {
@@ -1574,13 +1588,7 @@ mod tests {
             for batch in queries.chunks_exact(LANES) {
                 let mut packet = Packet::default();
                 for (l, (o, d, skip)) in batch.iter().enumerate() {
-                    packet.ox[l] = o.x;
-                    packet.oy[l] = o.y;
-                    packet.oz[l] = o.z;
-                    packet.dx[l] = d.x;
-                    packet.dy[l] = d.y;
-                    packet.dz[l] = d.z;
-                    packet.skip[l] = skip.unwrap_or(NO_FACET);
+                    packet.set(l, *o, *d, skip.unwrap_or(NO_FACET));
                 }
                 let got = tex.cross_packet(&packet);
                 for (l, &(o, d, skip)) in batch.iter().enumerate() {

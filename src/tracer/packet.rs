@@ -44,6 +44,20 @@ struct Flight {
 }
 
 impl Flight {
+    /// No rays in flight.
+    fn empty() -> Flight {
+        Flight {
+            packet: Packet::default(),
+            stokes: [[0.0; LANES]; 4],
+            e1: [[0.0; LANES]; 3],
+            below: [0; LANES],
+            events: [0.0; LANES],
+            film: [[0.0; LANES]; MAX_FILM_LAYERS],
+            active: [false; LANES],
+            start: [Vec3::Z; LANES],
+        }
+    }
+
     /// Unpolarised light after an event of the `go` lanes: weight × (R + T) = `total`.
     #[inline(always)]
     fn renormalise_unpolarised(&mut self, go: M, total: &F) {
@@ -135,16 +149,7 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     );
     let mut samples = [FacetSample::default(); LANES];
     let mut lane_rng = Lanes4::from_stream(rng);
-    let mut fl = Flight {
-        packet: Packet::default(),
-        stokes: [[0.0; LANES]; 4],
-        e1: [[0.0; LANES]; 3],
-        below: [0; LANES],
-        events: [0.0; LANES],
-        film: [[0.0; LANES]; MAX_FILM_LAYERS],
-        active: [false; LANES],
-        start: [Vec3::Z; LANES],
-    };
+    let mut fl = Flight::empty();
     let mut launched = 0u64;
     // Starts the next ray of the chunk in lane `l`, or retires the lane.
     let mut launch = |fl: &mut Flight, l: usize, rng: &mut Stream| {
@@ -172,7 +177,7 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
                 )
             }
         };
-        set_ray(&mut fl.packet, l, o, d, NO_FACET);
+        fl.packet.set(l, o, d, NO_FACET);
         for (c, v) in pol.s.iter().enumerate() {
             fl.stokes[c][l] = *v;
         }
@@ -494,18 +499,6 @@ impl Meeting {
     }
 }
 
-/// Puts a ray into lane `l` of `packet`.
-#[inline(always)]
-fn set_ray(packet: &mut Packet, l: usize, o: Vec3, d: Vec3, skip: u32) {
-    packet.ox[l] = o.x;
-    packet.oy[l] = o.y;
-    packet.oz[l] = o.z;
-    packet.dx[l] = d.x;
-    packet.dy[l] = d.y;
-    packet.dz[l] = d.z;
-    packet.skip[l] = skip;
-}
-
 /// The robust one-ray walk for lane `l`, written into `found`: its next crossing (lattice
 /// frame, snapped onto the facet's plane) and facet, or that it leaves the slab.
 #[cold]
@@ -577,16 +570,7 @@ mod tests {
                 let lanes_bare = (n_layers == 0 && polarisation == PolarisationMode::Unpolarised)
                     .then_some(&bare);
                 for trial in 0..500u64 {
-                    let mut fl = Flight {
-                        packet: Packet::default(),
-                        stokes: [[0.0; LANES]; 4],
-                        e1: [[0.0; LANES]; 3],
-                        below: [0; LANES],
-                        events: [0.0; LANES],
-                        film: [[0.0; LANES]; MAX_FILM_LAYERS],
-                        active: [true; LANES],
-                        start: [Vec3::Z; LANES],
-                    };
+                    let mut fl = Flight::empty();
                     let mut found = Crossings {
                         crosses: [u64::MAX; LANES],
                         leaves: [0; LANES],
@@ -613,7 +597,7 @@ mod tests {
                         let e1 = k.cross(Vec3::new(0.3, -0.2, 0.9)).normalize();
                         let st = [1.0, 0.3 * draw.uniform(), -0.4 * draw.uniform(), 0.5];
                         found.face[l] = face;
-                        set_ray(&mut fl.packet, l, Vec3::ZERO, k, face);
+                        fl.packet.set(l, Vec3::ZERO, k, face);
                         fl.below[l] = u64::from(below).wrapping_neg();
                         for (c, v) in st.iter().enumerate() {
                             fl.stokes[c][l] = *v;
