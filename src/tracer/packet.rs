@@ -532,6 +532,19 @@ mod tests {
     use crate::tracer::{CoatedInterface, CoatingGeometry, InputPolarisation};
     use num_complex::Complex64;
 
+    /// A bare and a coated interface (films `layers`, tabulated at 500 nm) from air onto a
+    /// substrate of index 3.9.
+    fn interfaces(layers: Vec<Layer>) -> (BareInterface, CoatedInterface) {
+        let stack =
+            FilmStack::new(Complex64::new(1.0, 0.0), layers, Complex64::new(3.9, 0.0)).unwrap();
+        let coated = CoatedInterface::new(&stack, 500.0, CoatingGeometry::Conformal, &[]).unwrap();
+        let bare = BareInterface {
+            n_above: 1.0,
+            n_below: 3.9,
+        };
+        (bare, coated)
+    }
+
     #[test]
     fn lane_events_equal_the_one_ray_facet_event_bit_for_bit() {
         // bare_events and sampled_events are Surface::facet_event written over lanes: fed the
@@ -540,20 +553,10 @@ mod tests {
         use crate::texture::SurfaceKind;
         use crate::tracer::surface::Step;
         let tex = RegularPyramids::new(RegularPyramidsSpec::upright(5.0)).unwrap();
-        let stack = FilmStack::new(
-            Complex64::new(1.0, 0.0),
-            vec![
-                Layer::new(Complex64::new(2.05, 0.02), 75.0),
-                Layer::new(Complex64::new(1.46, 0.001), 20.0),
-            ],
-            Complex64::new(3.9, 0.0),
-        )
-        .unwrap();
-        let coated = CoatedInterface::new(&stack, 500.0, CoatingGeometry::Conformal, &[]).unwrap();
-        let bare = BareInterface {
-            n_above: 1.0,
-            n_below: 3.9,
-        };
+        let (bare, coated) = interfaces(vec![
+            Layer::new(Complex64::new(2.05, 0.02), 75.0),
+            Layer::new(Complex64::new(1.46, 0.001), 20.0),
+        ]);
         let responses: [&dyn FacetResponse; 2] = [&bare, &coated];
         let mut draw = Stream::new(1, 2, 3);
         for response in responses {
@@ -678,17 +681,7 @@ mod tests {
             ..RegularPyramidsSpec::upright(5.0)
         })
         .unwrap();
-        let stack = FilmStack::new(
-            Complex64::new(1.0, 0.0),
-            vec![Layer::new(Complex64::new(2.05, 0.01), 75.0)],
-            Complex64::new(3.9, 0.0),
-        )
-        .unwrap();
-        let coated = CoatedInterface::new(&stack, 500.0, CoatingGeometry::Conformal, &[]).unwrap();
-        let bare = BareInterface {
-            n_above: 1.0,
-            n_below: 3.9,
-        };
+        let (bare, coated) = interfaces(vec![Layer::new(Complex64::new(2.05, 0.01), 75.0)]);
         let responses: [&dyn FacetResponse; 2] = [&bare, &coated];
         for response in responses {
             for polarisation in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
