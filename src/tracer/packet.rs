@@ -545,6 +545,28 @@ mod tests {
         (bare, coated)
     }
 
+    /// `tex` between air and index 3.9 with each facet response and polarisation mode.
+    fn surfaces<'a>(
+        tex: &'a RegularPyramids,
+        bare: &'a BareInterface,
+        coated: &'a CoatedInterface,
+    ) -> Vec<Surface<'a>> {
+        let responses: [&dyn FacetResponse; 2] = [bare, coated];
+        let modes = [PolarisationMode::Unpolarised, PolarisationMode::Stokes];
+        responses
+            .into_iter()
+            .flat_map(|response| {
+                modes.map(|polarisation| Surface {
+                    texture: tex,
+                    response,
+                    n_above: 1.0,
+                    n_below: 3.9,
+                    polarisation,
+                })
+            })
+            .collect()
+    }
+
     #[test]
     fn lane_events_equal_the_one_ray_facet_event_bit_for_bit() {
         // bare_events and sampled_events are Surface::facet_event written over lanes: fed the
@@ -557,114 +579,105 @@ mod tests {
             Layer::new(Complex64::new(2.05, 0.02), 75.0),
             Layer::new(Complex64::new(1.46, 0.001), 20.0),
         ]);
-        let responses: [&dyn FacetResponse; 2] = [&bare, &coated];
         let mut draw = Stream::new(1, 2, 3);
-        for response in responses {
-            for polarisation in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
-                let surface = Surface {
-                    texture: &tex,
-                    response,
-                    n_above: 1.0,
-                    n_below: 3.9,
-                    polarisation,
+        for surface in surfaces(&tex, &bare, &coated) {
+            let (response, polarisation) = (surface.response, surface.polarisation);
+            let n_layers = response.n_layers();
+            let ratios = (1.0 / 3.9, 3.9);
+            let lanes_bare =
+                (n_layers == 0 && polarisation == PolarisationMode::Unpolarised).then_some(&bare);
+            for trial in 0..500u64 {
+                let mut fl = Flight::empty();
+                let mut found = Crossings {
+                    crosses: [u64::MAX; LANES],
+                    leaves: [0; LANES],
+                    face: [0; LANES],
+                    x: [1.0; LANES],
+                    y: [2.0; LANES],
+                    z: [0.5; LANES],
                 };
-                let n_layers = response.n_layers();
-                let ratios = (1.0 / 3.9, 3.9);
-                let lanes_bare = (n_layers == 0 && polarisation == PolarisationMode::Unpolarised)
-                    .then_some(&bare);
-                for trial in 0..500u64 {
-                    let mut fl = Flight::empty();
-                    let mut found = Crossings {
-                        crosses: [u64::MAX; LANES],
-                        leaves: [0; LANES],
-                        face: [0; LANES],
-                        x: [1.0; LANES],
-                        y: [2.0; LANES],
-                        z: [0.5; LANES],
+                let mut scalar = Vec::new();
+                let mut u = [0.0; LANES];
+                for (l, u_l) in u.iter_mut().enumerate() {
+                    let face = (draw.next_u64() % 4) as u32;
+                    let n = tex.lattice_normal(face);
+                    let below = draw.uniform() < 0.5;
+                    let mut k = Vec3::new(
+                        draw.uniform() - 0.5,
+                        draw.uniform() - 0.5,
+                        draw.uniform() - 0.5,
+                    )
+                    .normalize();
+                    if (k.dot(n) > 0.0) != below {
+                        k = -k;
+                    }
+                    let e1 = k.cross(Vec3::new(0.3, -0.2, 0.9)).normalize();
+                    let st = [1.0, 0.3 * draw.uniform(), -0.4 * draw.uniform(), 0.5];
+                    found.face[l] = face;
+                    fl.packet.set(l, Vec3::ZERO, k, face);
+                    fl.below[l] = u64::from(below).wrapping_neg();
+                    for (c, v) in st.iter().enumerate() {
+                        fl.stokes[c][l] = *v;
+                    }
+                    for (c, v) in e1.to_array().into_iter().enumerate() {
+                        fl.e1[c][l] = v;
+                    }
+                    // The one-ray event, drawing its uniform from a copy of the stream.
+                    let mut rng = Stream::new(7, trial, l as u64);
+                    *u_l = rng.clone().uniform();
+                    let mut pol = Polarised { s: st, e1 };
+                    let mut film = [0.0; MAX_FILM_LAYERS];
+                    let mut sample = FacetSample::default();
+                    let side = if below { Side::Below } else { Side::Above };
+                    let step = surface.facet_event(
+                        response,
+                        SurfaceKind::Geometric,
+                        side,
+                        k,
+                        n,
+                        &mut pol,
+                        &mut rng,
+                        &mut film[..n_layers],
+                        &mut sample,
+                    );
+                    let Step::Go(dir, to) = step else {
+                        panic!("consistent rays and lossless films must go on")
                     };
-                    let mut scalar = Vec::new();
-                    let mut u = [0.0; LANES];
-                    for (l, u_l) in u.iter_mut().enumerate() {
-                        let face = (draw.next_u64() % 4) as u32;
-                        let n = tex.lattice_normal(face);
-                        let below = draw.uniform() < 0.5;
-                        let mut k = Vec3::new(
-                            draw.uniform() - 0.5,
-                            draw.uniform() - 0.5,
-                            draw.uniform() - 0.5,
-                        )
-                        .normalize();
-                        if (k.dot(n) > 0.0) != below {
-                            k = -k;
-                        }
-                        let e1 = k.cross(Vec3::new(0.3, -0.2, 0.9)).normalize();
-                        let st = [1.0, 0.3 * draw.uniform(), -0.4 * draw.uniform(), 0.5];
-                        found.face[l] = face;
-                        fl.packet.set(l, Vec3::ZERO, k, face);
-                        fl.below[l] = u64::from(below).wrapping_neg();
-                        for (c, v) in st.iter().enumerate() {
-                            fl.stokes[c][l] = *v;
-                        }
-                        for (c, v) in e1.to_array().into_iter().enumerate() {
-                            fl.e1[c][l] = v;
-                        }
-                        // The one-ray event, drawing its uniform from a copy of the stream.
-                        let mut rng = Stream::new(7, trial, l as u64);
-                        *u_l = rng.clone().uniform();
-                        let mut pol = Polarised { s: st, e1 };
-                        let mut film = [0.0; MAX_FILM_LAYERS];
-                        let mut sample = FacetSample::default();
-                        let side = if below { Side::Below } else { Side::Above };
-                        let step = surface.facet_event(
-                            response,
-                            SurfaceKind::Geometric,
-                            side,
-                            k,
-                            n,
-                            &mut pol,
-                            &mut rng,
-                            &mut film[..n_layers],
-                            &mut sample,
-                        );
-                        let Step::Go(dir, to) = step else {
-                            panic!("consistent rays and lossless films must go on")
-                        };
-                        scalar.push((dir, to, pol, film));
-                    }
-                    let all = [u64::MAX; LANES];
-                    if let Some(bare) = lanes_bare {
-                        bare_events(&tex, bare, ratios, &mut fl, &found, all, &u);
-                    } else {
-                        let mut samples = [FacetSample::default(); LANES];
-                        sampled_events(
-                            &surface,
-                            ratios,
-                            &tex,
-                            response,
-                            &mut samples,
-                            &mut fl,
-                            &found,
-                            all,
-                            &u,
-                        );
-                    }
-                    for (l, (dir, to, pol, film)) in scalar.iter().enumerate() {
-                        let p = &fl.packet;
-                        assert_eq!([p.dx[l], p.dy[l], p.dz[l]], dir.to_array(), "lane {l}");
-                        assert_eq!(side(on(&fl.below, l)), *to);
-                        assert_eq!(
-                            [
-                                fl.stokes[0][l],
-                                fl.stokes[1][l],
-                                fl.stokes[2][l],
-                                fl.stokes[3][l]
-                            ],
-                            pol.s
-                        );
-                        assert_eq!([fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]], pol.e1.to_array());
-                        for (layer, f) in fl.film.iter().zip(&film[..n_layers]) {
-                            assert_eq!(layer[l], *f);
-                        }
+                    scalar.push((dir, to, pol, film));
+                }
+                let all = [u64::MAX; LANES];
+                if let Some(bare) = lanes_bare {
+                    bare_events(&tex, bare, ratios, &mut fl, &found, all, &u);
+                } else {
+                    let mut samples = [FacetSample::default(); LANES];
+                    sampled_events(
+                        &surface,
+                        ratios,
+                        &tex,
+                        response,
+                        &mut samples,
+                        &mut fl,
+                        &found,
+                        all,
+                        &u,
+                    );
+                }
+                for (l, (dir, to, pol, film)) in scalar.iter().enumerate() {
+                    let p = &fl.packet;
+                    assert_eq!([p.dx[l], p.dy[l], p.dz[l]], dir.to_array(), "lane {l}");
+                    assert_eq!(side(on(&fl.below, l)), *to);
+                    assert_eq!(
+                        [
+                            fl.stokes[0][l],
+                            fl.stokes[1][l],
+                            fl.stokes[2][l],
+                            fl.stokes[3][l]
+                        ],
+                        pol.s
+                    );
+                    assert_eq!([fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]], pol.e1.to_array());
+                    for (layer, f) in fl.film.iter().zip(&film[..n_layers]) {
+                        assert_eq!(layer[l], *f);
                     }
                 }
             }
@@ -682,34 +695,25 @@ mod tests {
         })
         .unwrap();
         let (bare, coated) = interfaces(vec![Layer::new(Complex64::new(2.05, 0.01), 75.0)]);
-        let responses: [&dyn FacetResponse; 2] = [&bare, &coated];
-        for response in responses {
-            for polarisation in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
-                let surface = Surface {
-                    texture: &tex,
-                    response,
-                    n_above: 1.0,
-                    n_below: 3.9,
-                    polarisation,
-                };
-                let inc = Incidence::Above {
-                    theta: 0.4,
-                    phi: 0.3,
-                    polarisation: InputPolarisation::P,
-                };
-                let run = |simd: bool| {
-                    let mut rng = Stream::new(5, 6, 7);
-                    if simd {
-                        trace_chunk::<_, ()>(&surface, &tex, response, &inc, 3000, &mut rng).0
-                    } else {
-                        trace_chunk_body::<_, ()>(&surface, &tex, response, &inc, 3000, &mut rng).0
-                    }
-                };
-                let (a, b) = (run(true), run(false));
-                assert_eq!(a, b);
-                assert_eq!(a.lost_rays, 0);
-                assert!(a.reflectance().value > 0.0 && a.transmittance().value > 0.5);
-            }
+        for surface in surfaces(&tex, &bare, &coated) {
+            let response = surface.response;
+            let inc = Incidence::Above {
+                theta: 0.4,
+                phi: 0.3,
+                polarisation: InputPolarisation::P,
+            };
+            let run = |simd: bool| {
+                let mut rng = Stream::new(5, 6, 7);
+                if simd {
+                    trace_chunk::<_, ()>(&surface, &tex, response, &inc, 3000, &mut rng).0
+                } else {
+                    trace_chunk_body::<_, ()>(&surface, &tex, response, &inc, 3000, &mut rng).0
+                }
+            };
+            let (a, b) = (run(true), run(false));
+            assert_eq!(a, b);
+            assert_eq!(a.lost_rays, 0);
+            assert!(a.reflectance().value > 0.0 && a.transmittance().value > 0.5);
         }
     }
 }
