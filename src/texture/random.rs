@@ -42,6 +42,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
+use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::sampling::Stream;
 use crate::texture::pyramids::{check_angle, check_length};
@@ -143,6 +144,9 @@ pub struct Pyramid {
 #[derive(Clone, Copy, Debug)]
 struct Image {
     planes: [HeightPlane; 4],
+    /// Up normals of the four faces (see [`face_normals`]): looked up, not chosen by a
+    /// branch on the face, which the processor could not predict.
+    normals: [Vec3; 4],
     sin_a: f64,
     cos_a: f64,
     cx: f64,
@@ -166,16 +170,10 @@ impl Image {
         best
     }
 
-    /// Up normal of face `k`.
-    #[inline]
+    /// Up normal of face `k` (0..4).
+    #[inline(always)]
     fn normal(&self, k: u32) -> Vec3 {
-        let (s, c) = (self.sin_a, self.cos_a);
-        match k {
-            0 => Vec3::new(s, 0.0, c),
-            1 => Vec3::new(-s, 0.0, c),
-            2 => Vec3::new(0.0, s, c),
-            _ => Vec3::new(0.0, -s, c),
-        }
+        self.normals[k as usize]
     }
 
     /// Highest and lowest cone height over the rectangle [x0, x1] × [y0, y1].
@@ -194,6 +192,17 @@ impl Image {
     fn contains(&self, x: f64, y: f64, z: f64, margin: f64) -> bool {
         z >= -margin && z + margin <= self.cone_at(x, y).0
     }
+}
+
+/// Up normals of the faces 0 (+x side), 1 (−x), 2 (+y), 3 (−y) of a pyramid with facet
+/// angle α, from sin α and cos α.
+fn face_normals(s: f64, c: f64) -> [Vec3; 4] {
+    [
+        Vec3::new(s, 0.0, c),
+        Vec3::new(-s, 0.0, c),
+        Vec3::new(0.0, s, c),
+        Vec3::new(0.0, -s, c),
+    ]
 }
 
 /// One entry of a grid cell's list.
@@ -502,6 +511,7 @@ impl RandomPyramids {
                                 w: h - tan_a * cy,
                             },
                         ],
+                        normals: face_normals(sin_a, cos_a),
                         sin_a,
                         cos_a,
                         cx,
@@ -853,6 +863,43 @@ impl RandomPyramids {
                 }
             }
         };
+        let ray = self.lean_ray(o, d, skip);
+        // A ray leaving a pyramid face down into that pyramid, which reaches the base plane
+        // before leaving the pyramid (or the pyramids it passes into), stays below the
+        // surface: no crossing.
+        if !above
+            && d.z < 0.0
+            && ray.skip_image != u32::MAX
+            && self.sinks::<COMMON>(common, &ray)?
+        {
+            return Some(None);
+        }
+        let walk = GridWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY);
+        if above {
+            self.fast_above::<COMMON>(&ray, walk, common)
+        } else {
+            self.fast_below::<COMMON>(&ray, walk, common)
+        }
+    }
+
+    /// Pyramid image `image` as an item of a cell list, its apex as the top.
+    #[inline(always)]
+    fn item_of(&self, image: u32) -> Item {
+        let im = &self.images[image as usize];
+        Item {
+            image,
+            top: im.height,
+            cx: im.cx,
+            cy: im.cy,
+            height: im.height,
+            tan_a: im.tan_a,
+            w: im.planes.map(|p| p.w),
+        }
+    }
+
+    /// The ray as the fast path uses it, leaving facet `skip` (if any).
+    #[inline(always)]
+    fn lean_ray(&self, o: Vec3, d: Vec3, skip: Option<u32>) -> LeanRay {
         // The base plane: the gap of `Gap::new` with its on-plane rule, then its half-line.
         let oz_abs = o.z.abs();
         let cg = if skip == Some(GROUND_FACET) || oz_abs <= greater(gamma(6) * oz_abs, self.tol) {
@@ -861,7 +908,7 @@ impl RandomPyramids {
             o.z
         };
         let rg = -cg * (1.0 / d.z);
-        let ray = LeanRay {
+        LeanRay {
             o,
             d,
             oz_abs,
@@ -875,41 +922,76 @@ impl RandomPyramids {
                 _ => u32::MAX,
             },
             skip_face: skip.map_or(0, |f| f.wrapping_sub(1) % 4),
-        };
-        // A ray leaving a pyramid face down into that pyramid, which reaches the base plane
-        // before leaving the pyramid (or the pyramids it passes into), stays below the
-        // surface: no crossing. Decided only when the ray is clearly (by `fast_margin`) inside
-        // a pyramid at each hand-over and where it meets the base plane; the robust walk finds
-        // no crossing either (in every cell those pyramids' spans, or those of the pyramids
-        // above them there, and the base plane's cover the ray).
-        if !above && d.z < 0.0 && ray.skip_image != u32::MAX {
-            let im = &self.images[ray.skip_image as usize];
-            let it = Item {
-                image: ray.skip_image,
-                top: im.height,
-                cx: im.cx,
-                cy: im.cy,
-                height: im.height,
-                tan_a: im.tan_a,
-                w: im.planes.map(|p| p.w),
-            };
-            let f = Self::faces::<COMMON>(common, im.tan_a, d)?;
-            let sp = self.cone_tagged(&f, &it, o.x, o.y, &ray, true);
-            if sp.s <= 0.0 {
-                if f.rate_min * (sp.e - ray.ground.0) > self.fast_margin {
-                    return Some(None);
-                }
-                if self.stays_below::<COMMON>(common, &ray, sp.e) {
-                    return Some(None);
-                }
-            }
         }
-        let walk = GridWalk::new(o, d, self.cell, t_start, t_end, MAX_CELLS_PER_QUERY);
-        if above {
-            self.fast_above::<COMMON>(&ray, walk, common)
+    }
+
+    /// Whether a ray that leaves a face of pyramid image `ray.skip_image` down into that
+    /// pyramid (`d.z < 0`, below the surface at its start) stays below the surface: it reaches
+    /// the base plane before leaving the pyramid (or the pyramids it passes into). Decided
+    /// only when the ray is clearly (by `fast_margin`) inside a pyramid at each hand-over and
+    /// where it meets the base plane; the robust walk finds no crossing either (in every cell
+    /// those pyramids' spans, or those of the pyramids above them there, and the base
+    /// plane's cover the ray). `None` if the ray runs parallel to a face of the pyramid.
+    #[inline(always)]
+    fn sinks<const COMMON: bool>(&self, common: &LeanFaces, ray: &LeanRay) -> Option<bool> {
+        let it = self.item_of(ray.skip_image);
+        let f = Self::faces::<COMMON>(common, it.tan_a, ray.d)?;
+        let (s, e) = self.cone_extent(&f, &it, ray.o.x, ray.o.y, ray, true);
+        Some(
+            s <= 0.0
+                && (f.rate_min * (e - ray.ground.0) > self.fast_margin
+                    || self.stays_below::<COMMON>(common, ray, e)),
+        )
+    }
+
+    /// [`Self::sinks`] for a ray from `o` (just off facet `facet`, as
+    /// [`Texture::intersect_after`] starts it) along `d`, with the set-up of the fast path
+    /// ([`Self::fast_walk`]) and nothing more: true only where [`Texture::intersect`] answers
+    /// "no crossing" through that shortcut (false: ask it).
+    #[inline(always)]
+    fn sinks_at_once(&self, o: Vec3, d: Vec3, facet: u32) -> bool {
+        // As `query` and `fast_crossing`: a pyramid face of the tile, d.z < 0, the faces'
+        // set-up possible.
+        let (down, n_facets) = (d.z < 0.0, 1 + 4 * self.images.len() as u32);
+        if !down || facet == GROUND_FACET || facet >= n_facets {
+            return false;
+        }
+        match self.common_tan {
+            Some(tan) => match LeanFaces::new(tan, d) {
+                Some(common) => self.sinks_from::<true>(&common, o, d, facet),
+                None => false,
+            },
+            None => self.sinks_from::<false>(&LeanFaces::UNUSED, o, d, facet),
+        }
+    }
+
+    /// [`Self::sinks_at_once`] with the face slopes of [`Self::fast_walk`].
+    #[inline(always)]
+    fn sinks_from<const COMMON: bool>(
+        &self,
+        common: &LeanFaces,
+        o: Vec3,
+        d: Vec3,
+        facet: u32,
+    ) -> bool {
+        // The side the ray starts on, as `fast_walk` finds it: only from below.
+        let (z_lo, z_hi) = (-self.pad, self.z_max + self.pad);
+        let im = &self.images[((facet - 1) / 4) as usize];
+        let above = if o.z > z_hi {
+            true
+        } else if o.z < z_lo {
+            false
         } else {
-            self.fast_below::<COMMON>(&ray, walk, common)
+            match Self::faces::<COMMON>(common, im.tan_a, d) {
+                Some(f) => f.cap[((facet - 1) % 4) as usize] < 0.0,
+                None => return false,
+            }
+        };
+        if above {
+            return false;
         }
+        let ray = self.lean_ray(o, d, Some(facet));
+        self.sinks::<COMMON>(common, &ray) == Some(true)
     }
 
     /// Whether a ray that is inside pyramids from its origin up to `x`, where it leaves the
@@ -937,10 +1019,10 @@ impl RandomPyramids {
                     return false;
                 };
                 let pinned = zero && it.image == ray.skip_image;
-                let sp = self.cone_tagged(&f, it, olx, oly, ray, pinned);
-                let inside = f.rate_min * lesser(x - sp.s, sp.e - x) > m;
-                if inside && next.is_none_or(|(e, _)| sp.e > e) {
-                    next = Some((sp.e, f.rate_min));
+                let (s, e) = self.cone_extent(&f, it, olx, oly, ray, pinned);
+                let inside = f.rate_min * lesser(x - s, e - x) > m;
+                if inside && next.is_none_or(|(e_next, _)| e > e_next) {
+                    next = Some((e, f.rate_min));
                 }
             }
             let Some((e, rate)) = next else {
@@ -1347,6 +1429,62 @@ impl RandomPyramids {
         Some((s, e, 1 + 4 * it.image + ks))
     }
 
+    /// Roots −c/e of the four face gaps of the pyramid image of item `im` along the ray from
+    /// (`olx`, `oly`, o.z) in a tile frame, after the on-plane rule (`pinned`: the facet left
+    /// is a face of it, its gap declared 0), as [`Self::cone_span`] finds them.
+    #[inline(always)]
+    fn cone_roots(
+        &self,
+        f: &LeanFaces,
+        im: &Item,
+        olx: f64,
+        oly: f64,
+        ray: &LeanRay,
+        pinned: bool,
+    ) -> [f64; 4] {
+        let (q, u, v, err) = self.origin_gaps(f, im, olx, oly, ray);
+        let pin = if pinned { ray.skip_face } else { 4 };
+        let gap = |c: f64, k: u32| {
+            if c.abs() <= err || k == pin { 0.0 } else { c }
+        };
+        [
+            gap(q + u, 0) * f.ninv[0],
+            gap(q - u, 1) * f.ninv[1],
+            gap(q + v, 2) * f.ninv[2],
+            gap(q - v, 3) * f.ninv[3],
+        ]
+    }
+
+    /// The bounds `s`, `e` of [`Self::cone_tagged`]'s span, bit for bit, without the planes
+    /// bounding it, in one-instruction maxima and minima rather than branches on the data
+    /// that the processor would often mispredict. Ties are broken as there (the earlier face
+    /// wins, in pairs and then between them), though they cannot differ in their bits: the
+    /// roots of equal value are equal numbers or zeros of one sign (a gap set to 0 is +0, and
+    /// the sign of −1/e is that of the bound's side).
+    #[inline(always)]
+    fn cone_extent(
+        &self,
+        f: &LeanFaces,
+        im: &Item,
+        olx: f64,
+        oly: f64,
+        ray: &LeanRay,
+        pinned: bool,
+    ) -> (f64, f64) {
+        let r = self.cone_roots(f, im, olx, oly, ray, pinned);
+        let c = &f.cap;
+        // `greater(b, a)` keeps a on a tie, `lesser(b, a)` too: the earlier face wins.
+        let s = greater(
+            greater(lesser(r[3], c[3]), lesser(r[2], c[2])),
+            greater(lesser(r[1], c[1]), lesser(r[0], c[0])),
+        );
+        let e = lesser(
+            lesser(greater(r[3], c[3]), greater(r[2], c[2])),
+            lesser(greater(r[1], c[1]), greater(r[0], c[0])),
+        );
+        (s, e)
+    }
+
     /// Below-surface span of the pyramid image of item `im` along the ray from (`olx`, `oly`,
     /// o.z) in a tile frame, with the planes bounding it and their rates (`pinned`: the facet left is
     /// a face of it, declared as the plane the ray leaves): [`Self::cone_span`] from the same
@@ -1361,20 +1499,10 @@ impl RandomPyramids {
         ray: &LeanRay,
         pinned: bool,
     ) -> Lean {
-        let (q, u, v, err) = self.origin_gaps(f, im, olx, oly, ray);
-        let pin = if pinned { ray.skip_face } else { 4 };
-        let gap = |c: f64, k: u32| {
-            if c.abs() <= err || k == pin { 0.0 } else { c }
-        };
-        // Roots −c/e; a face the ray dives under (cap +∞) bounds the span's start, one it
-        // rises over (cap −∞) its end: latest start and earliest end, the first face winning
-        // ties (as `Span::and`).
-        let r = [
-            gap(q + u, 0) * f.ninv[0],
-            gap(q - u, 1) * f.ninv[1],
-            gap(q + v, 2) * f.ninv[2],
-            gap(q - v, 3) * f.ninv[3],
-        ];
+        // A face the ray dives under (cap +∞) bounds the span's start, one it rises over
+        // (cap −∞) its end: latest start and earliest end, the first face winning ties (as
+        // `Span::and`).
+        let r = self.cone_roots(f, im, olx, oly, ray, pinned);
         let (mut s, mut ts) = (f64::NEG_INFINITY, 0);
         let (mut e, mut te) = (f64::INFINITY, 0);
         for (k, (&rk, &ck)) in r.iter().zip(&f.cap).enumerate() {
@@ -1750,6 +1878,16 @@ impl Texture for RandomPyramids {
         self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
     }
 
+    /// The default (from just off the facet, with the facet as `skip`), with a ray that sinks
+    /// into the pyramid it leaves answered at once ([`RandomPyramids::sinks_at_once`]).
+    fn intersect_after(&self, from: &Hit, dir: Vec3) -> Option<Hit> {
+        let origin = offset_origin(from.point, from.p_err, from.normal, dir);
+        if self.sinks_at_once(origin, dir, from.facet.0) {
+            return None;
+        }
+        self.intersect(origin, dir, Some(from.facet))
+    }
+
     fn facet_tilts_deg(&self) -> Vec<f64> {
         let mut t = self.facet_tilts();
         if self.coverage < 1.0 {
@@ -1841,10 +1979,14 @@ mod tests {
             let [z_min, z_max] = tex.z_range_um();
             let mut rng = Stream::new(23, n as u64, 0);
             let (mut decided, mut total, mut hits) = (0usize, 0usize, 0usize);
-            for k in 0..3000 {
-                // Launch: 3 in 4 from above (half of them within 10° of the normal).
+            let (mut after, mut sank) = (0usize, 0usize);
+            for k in 0..7000 {
+                // Launch: 3 in 4 from above (one in 8 at normal incidence, half within 10° of
+                // the normal).
                 let from_above = k % 4 != 3;
-                let mut dir = if k % 2 == 0 {
+                let mut dir = if k % 8 == 0 {
+                    Vec3::Z
+                } else if k % 2 == 0 {
                     let (st, phi) = (
                         (10f64).to_radians().sin() * rng.uniform(),
                         TAU * rng.uniform(),
@@ -1864,7 +2006,54 @@ mod tests {
                 let mut origin = Vec3::new(rng.uniform() * l, rng.uniform() * l, z0);
                 let mut skip = None;
                 let mut above = from_above;
+                let mut from: Option<Hit> = None;
                 for _ in 0..8 {
+                    // A query from a hit point: `intersect_after` (with its shortcut for rays
+                    // sinking into the pyramid left) against the robust walk from the same
+                    // start, and the shortcut only where the fast path takes it too.
+                    if let Some(h) = &from {
+                        let q = tex.query(origin, dir, skip);
+                        let robust = q.and_then(|(sk, [t0, t1, lo, hi])| {
+                            tex.robust_crossing(origin, dir, sk, t0, t1, lo, hi)
+                        });
+                        // The span bounds of the shortcut, bit for bit those of the tagged span,
+                        // for the pyramid left, pinned or not.
+                        if h.facet.0 != GROUND_FACET {
+                            let it = tex.item_of((h.facet.0 - 1) / 4);
+                            let ray = tex.lean_ray(origin, dir, Some(h.facet.0));
+                            if let Some(f) = LeanFaces::new(it.tan_a, dir) {
+                                for pinned in [true, false] {
+                                    let (s, e) =
+                                        tex.cone_extent(&f, &it, origin.x, origin.y, &ray, pinned);
+                                    let sp =
+                                        tex.cone_tagged(&f, &it, origin.x, origin.y, &ray, pinned);
+                                    assert_eq!(
+                                        (s.to_bits(), e.to_bits()),
+                                        (sp.s.to_bits(), sp.e.to_bits()),
+                                        "tile {n}, ray {k}"
+                                    );
+                                }
+                            }
+                        }
+                        if tex.sinks_at_once(origin, dir, h.facet.0) {
+                            sank += 1;
+                            assert!(robust.is_none(), "tile {n}, ray {k}: sank, yet {robust:?}");
+                            if let Some((sk, [t0, t1, lo, hi])) = q {
+                                let fast = tex.fast_crossing(origin, dir, sk, t0, t1, lo, hi);
+                                assert!(matches!(fast, Some(None)), "tile {n}, ray {k}");
+                            }
+                        }
+                        after += 1;
+                        match (tex.intersect_after(h, dir), robust) {
+                            (None, None) => {}
+                            (Some(f), Some(r)) => {
+                                assert_eq!(f.facet, r.facet, "tile {n}, ray {k}");
+                                assert!((f.t - r.t).abs() <= 1e-12 * r.t.abs(), "tile {n}");
+                                assert_eq!(f.point, r.point, "tile {n}, ray {k}");
+                            }
+                            (f, r) => panic!("tile {n}, ray {k}: after {f:?} vs robust {r:?}"),
+                        }
+                    }
                     let Some((sk, [t_start, t_end, z_lo, z_hi])) = tex.query(origin, dir, skip)
                     else {
                         break;
@@ -1908,9 +2097,15 @@ mod tests {
                     origin = offset_origin(h.point, h.p_err, h.normal, new_dir);
                     dir = new_dir;
                     skip = Some(h.facet);
+                    from = Some(h);
                 }
             }
             let declined = total - decided;
+            // Rays refracted into the wafer mostly sink into the pyramid they cross.
+            assert!(
+                sank > after / 10,
+                "tile {n}: {sank} of {after} queries from hit points sank at once"
+            );
             assert!(
                 hits > total / 4 && (declined as f64) < 0.01 * total as f64,
                 "tile {n}: the fast path declined {declined} of {total} queries ({hits} hits)"
