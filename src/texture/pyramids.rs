@@ -828,8 +828,8 @@ impl RegularPyramids {
 pub const NO_FACET: u32 = u32::MAX;
 
 /// [`LANES`] rays for one query each, in the lattice frame: origins in the unit cell
-/// [0, p)² (on the facet just left, or above the slab for a ray entering it), unit
-/// directions, and the facet left.
+/// [0, p)² (on the facet just left, or outside the slab for a ray entering it; only entries
+/// from above are decided here), unit directions, and the facet left.
 #[derive(Clone, Copy, Debug)]
 pub struct Packet {
     pub ox: [f64; LANES],
