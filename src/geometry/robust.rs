@@ -16,14 +16,12 @@ pub fn offset_origin(p: Vec3, p_err: Vec3, n: Vec3, dir: Vec3) -> Vec3 {
         offset = -offset;
     }
     let po = p + offset;
+    // Both neighbours computed, then chosen: the sign of the offset is unpredictable, a
+    // branch on it would be mispredicted about every other call.
     let bump = |v: f64, o: f64| {
-        if o > 0.0 {
-            v.next_up()
-        } else if o < 0.0 {
-            v.next_down()
-        } else {
-            v
-        }
+        let (up, down) = (v.next_up(), v.next_down());
+        let low = if o < 0.0 { down } else { v };
+        if o > 0.0 { up } else { low }
     };
     Vec3::new(
         bump(po.x, offset.x),
