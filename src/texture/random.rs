@@ -1879,7 +1879,7 @@ impl Texture for RandomPyramids {
     }
 
     /// The default (from just off the facet, with the facet as `skip`), with a ray that sinks
-    /// into the pyramid it leaves answered at once ([`RandomPyramids::sinks_at_once`]).
+    /// into the pyramid it leaves answered at once (`sinks_at_once`).
     fn intersect_after(&self, from: &Hit, dir: Vec3) -> Option<Hit> {
         let origin = offset_origin(from.point, from.p_err, from.normal, dir);
         if self.sinks_at_once(origin, dir, from.facet.0) {
