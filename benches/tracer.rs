@@ -107,16 +107,7 @@ fn tracer(c: &mut Criterion) {
     let events = (events_per_ray(&s, &inc) * RAYS as f64) as u64;
     g.throughput(Throughput::Elements(events));
     g.bench_function("pyramids_bare_unpolarised_one_ray_at_a_time", |b| {
-        b.iter(|| {
-            let chunk = lightfold::tracer::RAYS_PER_CHUNK;
-            let mut tally = lightfold::tracer::Tally::default();
-            for k in 0..RAYS.div_ceil(chunk) {
-                let mut rng = lightfold::sampling::Stream::new(7, 0, k);
-                let rays = chunk.min(RAYS - k * chunk);
-                tally.merge(&s.trace_chunk_one_at_a_time::<()>(&inc, rays, &mut rng).0);
-            }
-            black_box(tally)
-        })
+        b.iter(|| pool1.install(|| black_box(s.trace_one_at_a_time::<()>(&inc, RAYS, 7, 0))))
     });
     g.finish();
 

@@ -399,18 +399,6 @@ fn directional_coating_thickness_follows_each_textures_facet_tilt() {
     }
 }
 
-/// `n` rays traced one at a time (no ray packets), chunk by chunk as `Surface::trace` does.
-fn trace_one_at_a_time(surf: &Surface, inc: &Incidence, rays: u64, seed: u64) -> Tally {
-    let chunk = lightfold::tracer::RAYS_PER_CHUNK;
-    let mut tally = Tally::default();
-    for c in 0..rays.div_ceil(chunk) {
-        let mut rng = lightfold::sampling::Stream::new(seed, 1, c);
-        let part = surf.trace_chunk_one_at_a_time::<()>(inc, chunk.min(rays - c * chunk), &mut rng);
-        tally.merge(&part.0);
-    }
-    tally
-}
-
 /// |a − b| within 4.5 combined standard errors of two independent estimates.
 fn agree(a: lightfold::tracer::Estimate, b: lightfold::tracer::Estimate, what: &str) {
     let tol = 4.5 * (a.std_error.powi(2) + b.std_error.powi(2)).sqrt() + 1e-12;
@@ -489,7 +477,7 @@ fn ray_packets_agree_with_rays_traced_one_at_a_time() {
         };
         let rays = 120_000;
         let packets = surf.trace::<()>(&inc, rays, 11, 1).0;
-        let single = trace_one_at_a_time(&surf, &inc, rays, 12);
+        let single = surf.trace_one_at_a_time::<()>(&inc, rays, 12, 1).0;
         let case = format!("case {k}");
         assert_eq!(packets.rays, rays);
         assert_eq!(packets.lost_rays + single.lost_rays, 0, "{case}: lost rays");

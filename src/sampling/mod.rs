@@ -5,6 +5,7 @@
 //! whatever the thread count. `Stream` alone names the generator crate.
 
 use crate::geometry::Vec3;
+use crate::geometry::lanes::LANES;
 use rand::{RngCore, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
@@ -67,24 +68,22 @@ impl Stream {
     }
 }
 
-/// Generators of [`Lanes4`]: four xoshiro256++ streams side by side.
-pub const LANES4: usize = 4;
-
-/// Four independent xoshiro256++ generators stored lane by lane, so that one step of all
-/// four compiles to a few SIMD integer instructions (for the packet tracer, one random number
-/// per ray in flight). The algorithm is xoshiro256++ (D. Blackman & S. Vigna, "Scrambled
+/// One xoshiro256++ generator per packet lane ([`LANES`]), stored lane by lane, so that one
+/// step of all of them compiles to a few SIMD integer instructions (for the packet tracer,
+/// one random number per ray in flight). The algorithm is xoshiro256++ (D. Blackman & S. Vigna, "Scrambled
 /// linear pseudorandom number generators", ACM TOMS 47(4), 36 (2021)), the generator of
 /// [`Stream`]; each lane is seeded from its parent stream through SplitMix64.
 #[derive(Clone, Debug)]
-pub struct Lanes4 {
-    s: [[u64; LANES4]; 4],
+pub struct LaneStreams {
+    s: [[u64; LANES]; 4],
 }
 
-impl Lanes4 {
-    /// Four generators seeded from `parent` (deterministically: 16 of its draws, mixed).
+impl LaneStreams {
+    /// The generators seeded from `parent` (deterministically: four of its draws per lane,
+    /// mixed).
     pub fn from_stream(parent: &mut Stream) -> Self {
-        let mut s = [[0u64; LANES4]; 4];
-        for lane in 0..LANES4 {
+        let mut s = [[0u64; LANES]; 4];
+        for lane in 0..LANES {
             for word in &mut s {
                 word[lane] = splitmix64(parent.next_u64());
             }
@@ -93,12 +92,12 @@ impl Lanes4 {
                 s[0][lane] = 1;
             }
         }
-        Lanes4 { s }
+        LaneStreams { s }
     }
 
     /// The next 64 bits of every lane.
     #[inline(always)]
-    pub fn next_u64(&mut self) -> [u64; LANES4] {
+    pub fn next_u64(&mut self) -> [u64; LANES] {
         let [s0, s1, s2, s3] = &mut self.s;
         let out = std::array::from_fn(|l| {
             s0[l]
@@ -106,7 +105,7 @@ impl Lanes4 {
                 .rotate_left(23)
                 .wrapping_add(s0[l])
         });
-        for l in 0..LANES4 {
+        for l in 0..LANES {
             let t = s1[l] << 17;
             s2[l] ^= s0[l];
             s3[l] ^= s1[l];
@@ -121,7 +120,7 @@ impl Lanes4 {
     /// A uniform number in [0, 1) per lane, from the top 52 bits (an exponent-stuffing
     /// conversion that needs no integer-to-float instruction).
     #[inline(always)]
-    pub fn uniform(&mut self) -> [f64; LANES4] {
+    pub fn uniform(&mut self) -> [f64; LANES] {
         self.next_u64()
             .map(|x| f64::from_bits((x >> 12) | 0x3FF0_0000_0000_0000) - 1.0)
     }
@@ -166,8 +165,8 @@ mod tests {
         // Each lane must be the xoshiro256++ sequence of its state, as the rand_xoshiro
         // crate computes it (reference implementation of Blackman & Vigna 2021).
         let mut parent = Stream::new(3, 4, 5);
-        let mut lanes = Lanes4::from_stream(&mut parent);
-        let mut reference: Vec<Xoshiro256PlusPlus> = (0..LANES4)
+        let mut lanes = LaneStreams::from_stream(&mut parent);
+        let mut reference: Vec<Xoshiro256PlusPlus> = (0..LANES)
             .map(|l| {
                 let mut seed = [0u8; 32];
                 for (w, word) in lanes.s.iter().enumerate() {

@@ -262,7 +262,7 @@ impl RegularPyramids {
 
     /// Lab-frame vector → lattice frame.
     #[inline]
-    fn to_lattice(&self, v: Vec3) -> Vec3 {
+    pub fn to_lattice(&self, v: Vec3) -> Vec3 {
         if self.rotated {
             Vec3::new(
                 self.cos_r * v.x + self.sin_r * v.y,
@@ -379,8 +379,7 @@ impl RegularPyramids {
     #[inline(always)]
     fn lab_hit(&self, t: f64, x: f64, y: f64, z: f64, err: Vec3, facet: u32) -> Hit {
         let (point, p_err) = if self.rotated {
-            let (c, s) = (self.cos_r, self.sin_r);
-            let point = Vec3::new(c * x - s * y, s * x + c * y, z);
+            let point = self.lattice_to_lab(Vec3::new(x, y, z));
             let rot_err = gamma(3) * (x.abs() + y.abs());
             (point, Vec3::new(rot_err, rot_err, err.z))
         } else {
@@ -892,14 +891,8 @@ impl RegularPyramids {
         !self.spec.inverted
     }
 
-    /// Lab-frame vector → lattice frame.
-    #[inline]
-    pub fn lab_to_lattice(&self, v: Vec3) -> Vec3 {
-        self.to_lattice(v)
-    }
-
     /// Lattice-frame vector → lab frame.
-    #[inline]
+    #[inline(always)]
     pub fn lattice_to_lab(&self, v: Vec3) -> Vec3 {
         if self.rotated {
             let (c, s) = (self.cos_r, self.sin_r);

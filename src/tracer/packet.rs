@@ -23,7 +23,7 @@ use super::surface::{
 use super::tally::Tally;
 use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
 use crate::geometry::{Hit, Vec3, greater, lesser};
-use crate::sampling::{Lanes4, Stream};
+use crate::sampling::{LaneStreams, Stream};
 use crate::texture::pyramids::{Crossings, NO_FACET, Packet};
 use crate::texture::{RegularPyramids, Texture};
 use std::any::Any;
@@ -138,8 +138,8 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     // coordinates (u·p, v·p): the same distribution as `Launcher::ray`, without rotations.
     let (fixed, z_entry) = launcher.fixed();
     let fixed = fixed.map(|(dir, pol)| {
-        let e1 = tex.lab_to_lattice(pol.e1);
-        (dir, tex.lab_to_lattice(dir), Polarised { s: pol.s, e1 })
+        let e1 = tex.to_lattice(pol.e1);
+        (dir, tex.to_lattice(dir), Polarised { s: pol.s, e1 })
     });
     let period = tex.period_um()[0];
     // Index ratios n₁/n₂ for refraction from above and from below.
@@ -148,7 +148,7 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         surface.n_below / surface.n_above,
     );
     let mut samples = [FacetSample::default(); LANES];
-    let mut lane_rng = Lanes4::from_stream(rng);
+    let mut lane_rng = LaneStreams::from_stream(rng);
     let mut fl = Flight::empty();
     let mut launched = 0u64;
     // Starts the next ray of the chunk in lane `l`, or retires the lane.
@@ -167,14 +167,9 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
             }
             None => {
                 let ray = launcher.ray(rng);
-                let e1 = tex.lab_to_lattice(ray.pol.e1);
+                let e1 = tex.to_lattice(ray.pol.e1);
                 let pol = Polarised { s: ray.pol.s, e1 };
-                (
-                    ray.dir,
-                    tex.home(ray.origin),
-                    tex.lab_to_lattice(ray.dir),
-                    pol,
-                )
+                (ray.dir, tex.home(ray.origin), tex.to_lattice(ray.dir), pol)
             }
         };
         fl.packet.set(l, o, d, NO_FACET);

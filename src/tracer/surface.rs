@@ -210,26 +210,20 @@ impl<'a> Surface<'a> {
         let texture: &dyn Any = self.texture;
         let response: &dyn Any = self.response;
         macro_rules! with_response {
-            ($tex:expr) => {
+            ($run:ident, $tex:expr) => {
                 if let Some(r) = response.downcast_ref::<BareInterface>() {
-                    job.run(self, $tex, r)
+                    job.$run(self, $tex, r)
                 } else if let Some(r) = response.downcast_ref::<CoatedInterface>() {
-                    job.run(self, $tex, r)
+                    job.$run(self, $tex, r)
                 } else {
-                    job.run(self, $tex, self.response)
+                    job.$run(self, $tex, self.response)
                 }
             };
         }
         if let Some(t) = texture.downcast_ref::<RegularPyramids>() {
-            if let Some(r) = response.downcast_ref::<BareInterface>() {
-                job.run_pyramids(self, t, r)
-            } else if let Some(r) = response.downcast_ref::<CoatedInterface>() {
-                job.run_pyramids(self, t, r)
-            } else {
-                job.run_pyramids(self, t, self.response)
-            }
+            with_response!(run_pyramids, t)
         } else if let Some(t) = texture.downcast_ref::<RandomPyramids>() {
-            with_response!(t)
+            with_response!(run, t)
         } else {
             job.run(self, self.texture, self.response)
         }
@@ -502,17 +496,6 @@ impl<'a> Surface<'a> {
         self.trace_chunk_with(incidence, rays, rng, true)
     }
 
-    /// [`Self::trace_chunk`] without the packet tracer of upright regular pyramids
-    /// (`tracer::packet`): every ray followed on its own. For comparisons and benchmarks.
-    pub fn trace_chunk_one_at_a_time<O: ExitObserver>(
-        &self,
-        incidence: &Incidence,
-        rays: u64,
-        rng: &mut Stream,
-    ) -> (Tally, O) {
-        self.trace_chunk_with(incidence, rays, rng, false)
-    }
-
     fn trace_chunk_with<O: ExitObserver>(
         &self,
         incidence: &Incidence,
@@ -620,32 +603,41 @@ impl<'a> Surface<'a> {
         seed: u64,
         job_key: u64,
     ) -> (Tally, O) {
-        self.trace_chunks(
-            incidence,
-            0,
-            n_rays.div_ceil(RAYS_PER_CHUNK),
-            n_rays,
-            seed,
-            job_key,
-        )
+        let chunks = 0..n_rays.div_ceil(RAYS_PER_CHUNK);
+        self.trace_chunks(incidence, chunks, n_rays, (seed, job_key), true)
     }
 
-    /// Chunks `first..last` of a job of `n_rays` in total (the last chunk may be short).
-    fn trace_chunks<O: ExitObserver>(
+    /// [`Self::trace`] without the packet tracer of upright regular pyramids
+    /// (`tracer::packet`): every ray followed on its own, seeded alike (the random numbers
+    /// are drawn differently, so results agree statistically). For comparisons and
+    /// benchmarks.
+    pub fn trace_one_at_a_time<O: ExitObserver>(
         &self,
         incidence: &Incidence,
-        first: u64,
-        last: u64,
         n_rays: u64,
         seed: u64,
         job_key: u64,
     ) -> (Tally, O) {
-        let parts: Vec<(Tally, O)> = (first..last)
+        let chunks = 0..n_rays.div_ceil(RAYS_PER_CHUNK);
+        self.trace_chunks(incidence, chunks, n_rays, (seed, job_key), false)
+    }
+
+    /// `chunks` of a job of `n_rays` in total (the last chunk may be short), seeded from
+    /// (seed, job key, chunk); `packets`: as [`Self::trace_chunk`] (else one ray at a time).
+    fn trace_chunks<O: ExitObserver>(
+        &self,
+        incidence: &Incidence,
+        chunks: std::ops::Range<u64>,
+        n_rays: u64,
+        (seed, job_key): (u64, u64),
+        packets: bool,
+    ) -> (Tally, O) {
+        let parts: Vec<(Tally, O)> = chunks
             .into_par_iter()
             .map(|chunk| {
                 let mut rng = Stream::new(seed, job_key, chunk);
                 let rays = RAYS_PER_CHUNK.min(n_rays - chunk * RAYS_PER_CHUNK);
-                self.trace_chunk(incidence, rays, &mut rng)
+                self.trace_chunk_with(incidence, rays, &mut rng, packets)
             })
             .collect(); // indexed collect keeps chunk order
         let mut tally = Tally::default();
@@ -675,7 +667,7 @@ impl<'a> Surface<'a> {
         let mut tally = Tally::default();
         let mut obs = O::default();
         loop {
-            let (t, o) = self.trace_chunks(incidence, done, next, budget, seed, job_key);
+            let (t, o) = self.trace_chunks(incidence, done..next, budget, (seed, job_key), true);
             tally.merge(&t);
             obs.merge(o);
             done = next;
@@ -773,14 +765,18 @@ pub(super) fn book<O: ExitObserver>(
     tally.abandoned.add(a);
 }
 
-/// Mirror image of the direction `k` in the plane with unit normal `n` (`k_dot_n` = k·n).
+/// Mirror image of the direction `k` in the plane with unit normal `n` (`k_dot_n` = k·n):
+/// r = k − 2(k·n)n, the law of reflection (Born & Wolf 1999, §1.5.1).
 #[inline(always)]
 pub(super) fn reflected(k: Vec3, n: Vec3, k_dot_n: f64) -> Vec3 {
     k - 2.0 * k_dot_n * n
 }
 
 /// Direction of the ray `k` refracted by Snell's law through a plane with unit normal
-/// `facing` (on the incidence side, k·facing = −`cos_i`), index ratio `eta` = n₁/n₂.
+/// `facing` (on the incidence side, k·facing = −`cos_i`), index ratio `eta` = n₁/n₂:
+/// t = η k + (η cos θᵢ − cos θₜ) n, the vector form of the law of refraction (M. Born &
+/// E. Wolf, *Principles of Optics*, 7th ed. (1999), §1.5.1; M. Pharr, W. Jakob &
+/// G. Humphreys, *Physically Based Rendering*, 4th ed. (2023), §9.3.2).
 /// Without a real refraction angle, −`facing`: that transmission happens only into an
 /// absorbing far medium (a rear metal, whose complex index the film response keeps), where
 /// the power is absorbed at once, so the ray is sent straight into it along the normal.
