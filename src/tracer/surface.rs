@@ -73,6 +73,8 @@ impl Incidence {
 
 /// Receives every ray that leaves the surface (for redistribution matrices and the like).
 pub trait ExitObserver: Send + Default {
+    /// Whether [`Self::exit`] does anything: tracers may skip calling it when not.
+    const WATCHES: bool = true;
     /// A ray leaves on `side` (the medium it ends in) with unit `dir` and power `weight`;
     /// `start_dir` is the direction it arrived with.
     fn exit(&mut self, start_dir: Vec3, side: Side, dir: Vec3, weight: f64);
@@ -101,6 +103,7 @@ impl BulkSink for Clear {
 }
 
 impl ExitObserver for () {
+    const WATCHES: bool = false;
     fn exit(&mut self, _: Vec3, _: Side, _: Vec3, _: f64) {}
     fn merge(&mut self, _: Self) {}
 }
