@@ -949,75 +949,73 @@ impl RegularPyramids {
     #[inline(always)]
     pub fn cross_packet(&self, p: &Packet) -> Crossings {
         let (m, per) = (self.margin, self.period);
-        let none = [0; LANES];
+        let (none, zero) = ([0; LANES], [0.0; LANES]);
         let q = self.lane_query(p);
         let lanes_ray = q.ray(m);
-        let (r, home, valid, down) = (&q.r, &q.home, q.valid, q.down);
         // Launch (A): where it enters the home cone, if clearly so, deep and above the ground.
         let launch = and(
-            and(valid, mask(|l| p.skip[l] == NO_FACET)),
-            and(mask(|l| p.oz[l] > q.z_hi), down),
+            and(q.valid, mask(|l| p.skip[l] == NO_FACET)),
+            and(mask(|l| p.oz[l] > q.z_hi), q.down),
         );
-        let a_hit = and(launch, lanes_ray.entry(p, r, home, &[0.0; LANES]));
-        // Into the pyramid (B): out through the first face plane it leaves (below the ground
-        // for good: `q.sinks`).
-        let mut leaves = q.sinks;
+        // Off a touching pyramid (C): the first step of the cell walk (`off_touching`)
+        // comes first, so that one cone serves every lane: the home pyramid's for A and B,
+        // the neighbour's across the first edge for C.
+        let (mut i, mut j) = (zero, zero);
+        let mut leaves = none;
+        let (c_on, c_edge) = if self.touching {
+            self.walk_step(p, &q, q.rising, &mut i, &mut j, &mut leaves)
+        } else {
+            (none, zero)
+        };
+        let (ci, cj) = (lanes(|l| i[l] * per), lanes(|l| j[l] * per));
+        let pin: [M; 4] = std::array::from_fn(|f| and_not(q.left[f], q.rising));
+        let r = self.pinned_roots(p, &q, &ci, &cj, &pin);
+        let cone = lanes_ray.cone(&r, &pin);
+        let a_hit = and(launch, lanes_ray.entry(p, &r, &cone, &zero));
+        // Into the pyramid (B): out through the first face plane it leaves, or below the
+        // ground for good.
+        let (b_on, sinks) = q.inside(&cone, m);
+        leaves = or(leaves, sinks);
         let b_hit = and(
-            and_not(q.b_on, leaves),
+            and_not(b_on, sinks),
             and(
-                mask(|l| home.end[l].is_finite()),
-                lanes_ray.clear(r, &home.end, &home.te),
+                mask(|l| cone.end[l].is_finite()),
+                lanes_ray.clear(&r, &cone.end, &cone.te),
             ),
         );
-        let mut crosses = or(a_hit, b_hit);
-        let mut t = pick(a_hit, home.s, home.end);
-        let mut face = pick(a_hit, home.ts, home.te);
-        let mut cell = [[0.0; LANES]; 2];
-        // Off a touching pyramid (C), or from above clearly past the one below (A): from
-        // cell to cell, as `off_touching`.
+        let c_meets = and(c_on, mask(|l| cone.s[l] < cone.end[l] - m));
+        let c_hit = and(c_meets, lanes_ray.entry(p, &r, &cone, &c_edge));
+        let enters = or(a_hit, c_hit);
+        let mut crosses = or(enters, b_hit);
+        let mut t = pick(enters, cone.s, cone.end);
+        let mut face = pick(enters, cone.ts, cone.te);
+        let mut cell = [pick(c_hit, ci, zero), pick(c_hit, cj, zero)];
+        // On from cell to cell while clearly past the cone (or else grazing it: undecided):
+        // C lanes past the neighbour's, A lanes from above past the one below them.
+        let past = mask(|l| cone.s[l] > cone.end[l] + m);
         let mut walking = if self.touching {
-            let past = and(launch, mask(|l| home.s[l] > home.end[l] + m));
-            or(q.rising, past)
+            and(or(launch, and_not(c_on, c_meets)), past)
         } else {
             none
         };
-        let t_top = &q.t_top;
-        let step_x = pick(q.east, [1.0; LANES], [-1.0; LANES]);
-        let step_y = pick(q.north, [1.0; LANES], [-1.0; LANES]);
-        let (mut i, mut j) = ([0.0; LANES], [0.0; LANES]);
-        for _ in 0..4 {
+        for step in 0..4 {
+            if step == 3 {
+                walking = and_not(walking, q.rising); // four steps for C lanes, as off_touching
+            }
             if !any(&walking) {
                 break;
             }
-            let tx = q.to_edge(&i, &p.ox, &p.dx, q.east, q.west, per);
-            let ty = q.to_edge(&j, &p.oy, &p.dy, q.north, q.south, per);
-            let edge = lanes(|l| lesser(tx[l], ty[l]));
-            let out_top = and(walking, mask(|l| t_top[l] < edge[l] - m)); // out of the slab first
-            leaves = or(leaves, out_top);
-            walking = and_not(walking, out_top);
-            // At a corner, or low at the edge (a valley): undecided.
-            let clear_edge = and(
-                and(mask(|l| edge[l] > m), mask(|l| (tx[l] - ty[l]).abs() > m)),
-                mask(|l| p.oz[l] + p.dz[l] * edge[l] > m),
-            );
-            walking = and(walking, clear_edge);
-            let across_x = mask(|l| tx[l] < ty[l]);
-            i = pick(and(walking, across_x), lanes(|l| i[l] + step_x[l]), i);
-            j = pick(and_not(walking, across_x), lanes(|l| j[l] + step_y[l]), j);
+            let (on, edge) = self.walk_step(p, &q, walking, &mut i, &mut j, &mut leaves);
             let (ci, cj) = (lanes(|l| i[l] * per), lanes(|l| j[l] * per));
             let rn = self.roots_lanes(p, &q.ie, &ci, &cj);
             let cone = lanes_ray.cone(&rn, &[none; 4]);
-            let meets = and(walking, mask(|l| cone.s[l] < cone.end[l] - m));
+            let meets = and(on, mask(|l| cone.s[l] < cone.end[l] - m));
             let entry = and(meets, lanes_ray.entry(p, &rn, &cone, &edge));
             crosses = or(crosses, entry);
             t = pick(entry, cone.s, t);
             face = pick(entry, cone.ts, face);
             cell = [pick(entry, ci, cell[0]), pick(entry, cj, cell[1])];
-            // Past this cone clearly (or else grazing it: undecided), on to the next cell.
-            walking = and(
-                and_not(walking, meets),
-                mask(|l| cone.s[l] > cone.end[l] + m),
-            );
+            walking = and(and_not(on, meets), mask(|l| cone.s[l] > cone.end[l] + m));
         }
         // Crossing points, wrapped into the unit cell and snapped onto the facet's plane.
         let inside = |v: F| {
@@ -1053,20 +1051,21 @@ impl RegularPyramids {
     #[inline(always)]
     pub fn leaves_packet(&self, p: &Packet) -> M {
         let q = self.lane_query(p);
-        if !self.touching {
-            return q.sinks;
-        }
         let zero = [0.0; LANES];
-        let tx = q.to_edge(&zero, &p.ox, &p.dx, q.east, q.west, self.period);
-        let ty = q.to_edge(&zero, &p.oy, &p.dy, q.north, q.south, self.period);
-        let out_top = mask(|l| q.t_top[l] < lesser(tx[l], ty[l]) - self.margin);
-        or(q.sinks, and(q.rising, out_top))
+        let r = self.pinned_roots(p, &q, &zero, &zero, &q.left);
+        let home = q.ray(self.margin).cone(&r, &q.left);
+        let (_, mut leaves) = q.inside(&home, self.margin);
+        if self.touching {
+            let (mut i, mut j) = (zero, zero);
+            self.walk_step(p, &q, q.rising, &mut i, &mut j, &mut leaves);
+        }
+        leaves
     }
 
     /// The part of [`Self::cross_packet`] every kind of query needs (see [`LaneQuery`]).
     #[inline(always)]
     fn lane_query(&self, p: &Packet) -> LaneQuery {
-        let (tan, m) = (self.tan, self.margin);
+        let tan = self.tan;
         let [z_min, z_max] = self.z_range_um();
         let (z_lo, z_hi) = (z_min - self.pad, z_max + self.pad);
         let none = [0; LANES];
@@ -1084,20 +1083,10 @@ impl RegularPyramids {
         let rg = lanes(|l| -p.oz[l] * iz[l]);
         let entering: [M; 4] = std::array::from_fn(|f| mask(|l| e[f][l] < 0.0));
         let rates: [F; 4] = std::array::from_fn(|f| lanes(|l| e[f][l].abs()));
-        // The home pyramid's cone, the facet left pinned at t = 0 and not counted as entered.
+        // The facet each ray left (pinned at t = 0 in its pyramid's cone, not counted as
+        // entered).
         let kf = lanes(|l| f64::from(p.skip[l].min(FLAT_FACET + 1)));
         let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
-        let mut r = self.roots_lanes(p, &ie, &[0.0; LANES], &[0.0; LANES]);
-        for f in 0..4 {
-            r[f] = pick(left[f], [0.0; LANES], r[f]);
-        }
-        let home = LaneRay {
-            entering: &entering,
-            rates: &rates,
-            rg: &rg,
-            m,
-        }
-        .cone(&r, &left);
         let mut valid = mask(|l| p.dz[l] != 0.0);
         for ef in &e {
             valid = and(valid, mask(|l| ef[l] != 0.0));
@@ -1109,29 +1098,18 @@ impl RegularPyramids {
             into = or(into, and(left[f], entering[f]));
             on_face = or(on_face, left[f]);
         }
-        // Into the pyramid (B), clearly inside the other face planes and clear of the ground.
-        let inside = and(
-            and(and(valid, in_slab), into),
-            and(mask(|l| -m > home.s[l]), mask(|l| home.end[l] > m)),
-        );
         let down = mask(|l| p.dz[l] < 0.0);
-        let ground_clear = or(
-            and(down, mask(|l| rg[l] > m)),
-            and_not(mask(|l| -m > rg[l]), down),
-        );
-        let b_on = and(inside, ground_clear);
-        let sinks = and(and(b_on, down), mask(|l| home.end[l] > rg[l] + m));
+        let (east, north) = (mask(|l| p.dx[l] > 0.0), mask(|l| p.dy[l] > 0.0));
         LaneQuery {
             ie,
             rg,
             entering,
             rates,
-            r,
-            home,
+            left,
             valid,
+            in_slab,
+            into,
             down,
-            b_on,
-            sinks,
             rising: and_not(and(and(valid, in_slab), on_face), into),
             t_top: pick(
                 down,
@@ -1139,11 +1117,57 @@ impl RegularPyramids {
                 lanes(|l| (z_hi - p.oz[l]) * iz[l]),
             ),
             z_hi,
-            east: mask(|l| p.dx[l] > 0.0),
-            north: mask(|l| p.dy[l] > 0.0),
+            east,
+            north,
             west: mask(|l| p.dx[l] < 0.0),
             south: mask(|l| p.dy[l] < 0.0),
+            step_x: pick(east, [1.0; LANES], [-1.0; LANES]),
+            step_y: pick(north, [1.0; LANES], [-1.0; LANES]),
         }
+    }
+
+    /// [`Self::roots_lanes`] with the faces in `pin` (the facet each ray left, in its own
+    /// pyramid) pinned at t = 0.
+    #[inline(always)]
+    fn pinned_roots(&self, p: &Packet, q: &LaneQuery, cx: &F, cy: &F, pin: &[M; 4]) -> [F; 4] {
+        let mut r = self.roots_lanes(p, &q.ie, cx, cy);
+        for f in 0..4 {
+            r[f] = pick(pin[f], [0.0; LANES], r[f]);
+        }
+        r
+    }
+
+    /// One step of the cell walk of `off_touching` for the `walking` lanes, from lattice
+    /// cell (`i`, `j`) (indices as f64): lanes that rise out of the slab before the cell's
+    /// edge join `leaves`; lanes that meet the edge at a corner or low (a valley) drop out,
+    /// undecided; the rest step into the next cell. Returns those and the ray parameter at
+    /// the edge.
+    #[inline(always)]
+    fn walk_step(
+        &self,
+        p: &Packet,
+        q: &LaneQuery,
+        walking: M,
+        i: &mut F,
+        j: &mut F,
+        leaves: &mut M,
+    ) -> (M, F) {
+        let m = self.margin;
+        let tx = q.to_edge(i, &p.ox, &p.dx, q.east, q.west, self.period);
+        let ty = q.to_edge(j, &p.oy, &p.dy, q.north, q.south, self.period);
+        let edge = lanes(|l| lesser(tx[l], ty[l]));
+        let out_top = and(walking, mask(|l| q.t_top[l] < edge[l] - m)); // out of the slab first
+        *leaves = or(*leaves, out_top);
+        // At a corner, or low at the edge (a valley): undecided.
+        let clear_edge = and(
+            and(mask(|l| edge[l] > m), mask(|l| (tx[l] - ty[l]).abs() > m)),
+            mask(|l| p.oz[l] + p.dz[l] * edge[l] > m),
+        );
+        let on = and(and_not(walking, out_top), clear_edge);
+        let across_x = mask(|l| tx[l] < ty[l]);
+        *i = pick(and(on, across_x), lanes(|l| i[l] + q.step_x[l]), *i);
+        *j = pick(and_not(on, across_x), lanes(|l| j[l] + q.step_y[l]), *j);
+        (on, edge)
     }
 
     /// Face-plane roots (as [`ConeRay::roots`]) of the pyramids whose cells start at
@@ -1166,22 +1190,20 @@ impl RegularPyramids {
 
 /// The first part of a packet query ([`RegularPyramids::lane_query`]), lane by lane: the
 /// inverse face-plane rates, where each ray meets the ground, which faces it goes below and
-/// the rates' magnitudes; the face-plane roots and cone of the home pyramid (the facet left
-/// pinned at t = 0); which rays have a valid query and go down; the rays into the pyramid
-/// clear of every plane (case B, `b_on`) and those of them that pass below the ground for
-/// good (`sinks`); the rays off a face of a touching pyramid outward (case C, `rising`);
-/// when each ray rises out of the slab, the slab's top, and the signs of the directions.
+/// the rates' magnitudes; the facet it left; which rays have a valid query, start inside
+/// the slab, go into the pyramid of the facet they left (case B), go down; the rays off a
+/// face of a touching pyramid outward (case C, `rising`); when each ray rises out of the
+/// slab, the slab's top; the signs of the directions and the cell steps along them.
 struct LaneQuery {
     ie: [F; 4],
     rg: F,
     entering: [M; 4],
     rates: [F; 4],
-    r: [F; 4],
-    home: LaneCone,
+    left: [M; 4],
     valid: M,
+    in_slab: M,
+    into: M,
     down: M,
-    b_on: M,
-    sinks: M,
     rising: M,
     t_top: F,
     z_hi: f64,
@@ -1189,6 +1211,8 @@ struct LaneQuery {
     north: M,
     west: M,
     south: M,
+    step_x: F,
+    step_y: F,
 }
 
 impl LaneQuery {
@@ -1201,6 +1225,25 @@ impl LaneQuery {
             rg: &self.rg,
             m,
         }
+    }
+
+    /// Case B on `cone` (the home pyramid's, the facet left pinned): the rays into it
+    /// clearly inside the other face planes and clear of the ground, and those of them that
+    /// pass below the ground before any face plane (out of the slab for good).
+    #[inline(always)]
+    fn inside(&self, cone: &LaneCone, m: f64) -> (M, M) {
+        let (rg, down) = (&self.rg, self.down);
+        let inside = and(
+            and(and(self.valid, self.in_slab), self.into),
+            and(mask(|l| -m > cone.s[l]), mask(|l| cone.end[l] > m)),
+        );
+        let ground_clear = or(
+            and(down, mask(|l| rg[l] > m)),
+            and_not(mask(|l| -m > rg[l]), down),
+        );
+        let b_on = and(inside, ground_clear);
+        let sinks = and(and(b_on, down), mask(|l| cone.end[l] > rg[l] + m));
+        (b_on, sinks)
     }
 
     /// Ray parameter at which each ray reaches the far wall of lattice cell `c` (cell index
