@@ -837,8 +837,9 @@ pub struct Packet {
     pub dx: [f64; LANES],
     pub dy: [f64; LANES],
     pub dz: [f64; LANES],
-    /// Facet left (≤ [`FLAT_FACET`]), or [`NO_FACET`].
-    pub skip: [u32; LANES],
+    /// Facet left (≤ [`FLAT_FACET`]), or [`NO_FACET`], as f64 (facet indices stay in vector
+    /// registers with the rest of the lanes' values).
+    pub skip: F,
 }
 
 impl Packet {
@@ -851,7 +852,7 @@ impl Packet {
         self.dx[l] = d.x;
         self.dy[l] = d.y;
         self.dz[l] = d.z;
-        self.skip[l] = skip;
+        self.skip[l] = f64::from(skip);
     }
 }
 
@@ -864,7 +865,7 @@ impl Default for Packet {
             dx: [0.0; LANES],
             dy: [0.0; LANES],
             dz: [-1.0; LANES],
-            skip: [NO_FACET; LANES],
+            skip: [f64::from(NO_FACET); LANES],
         }
     }
 }
@@ -878,7 +879,8 @@ impl Default for Packet {
 pub struct Crossings {
     pub crosses: M,
     pub leaves: M,
-    pub face: [u32; LANES],
+    /// The facet crossed, as f64 (see [`Packet::skip`]).
+    pub face: F,
     pub x: [f64; LANES],
     pub y: [f64; LANES],
     pub z: [f64; LANES],
@@ -926,6 +928,18 @@ impl RegularPyramids {
         self.lattice_normals[facet as usize]
     }
 
+    /// [`Self::lattice_normal`] of each lane's facet (facet indices as f64).
+    #[inline(always)]
+    pub fn lattice_normal_lanes(&self, face: &F) -> [F; 3] {
+        let is = face_masks(face);
+        let n = &self.lattice_normals;
+        [
+            per_face(&is, n.map(|v| v.x)),
+            per_face(&is, n.map(|v| v.y)),
+            per_face(&is, n.map(|v| v.z)),
+        ]
+    }
+
     /// Height of `facet`'s plane at lattice-frame (x, y): a point snapped onto it.
     #[inline]
     pub fn snap(&self, facet: u32, x: f64, y: f64) -> f64 {
@@ -954,7 +968,7 @@ impl RegularPyramids {
         let lanes_ray = q.ray(m);
         // Launch (A): where it enters the home cone, if clearly so, deep and above the ground.
         let launch = and(
-            and(q.valid, mask(|l| p.skip[l] == NO_FACET)),
+            and(q.valid, mask(|l| p.skip[l] == f64::from(NO_FACET))),
             and(mask(|l| p.oz[l] > q.z_hi), q.down),
         );
         // Off a touching pyramid (C): the first step of the cell walk (`off_touching`)
@@ -1024,14 +1038,11 @@ impl RegularPyramids {
         };
         let x = inside(lanes(|l| (p.ox[l] + t[l] * p.dx[l]) - cell[0][l]));
         let y = inside(lanes(|l| (p.oy[l] + t[l] * p.dy[l]) - cell[1][l]));
-        let face: [u32; LANES] = std::array::from_fn(|l| face[l] as u32);
-        let planes: [&HeightPlane; LANES] =
-            std::array::from_fn(|l| &self.planes[(face[l] & 3) as usize]);
-        let (pa, pb, pw) = (
-            lanes(|l| planes[l].a),
-            lanes(|l| planes[l].b),
-            lanes(|l| planes[l].w),
-        );
+        // (The facets of crossings are faces 0–3.)
+        let is = face_masks(&face);
+        let pa = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].a));
+        let pb = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].b));
+        let pw = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].w));
         Crossings {
             crosses,
             leaves,
@@ -1085,7 +1096,7 @@ impl RegularPyramids {
         let rates: [F; 4] = std::array::from_fn(|f| lanes(|l| e[f][l].abs()));
         // The facet each ray left (pinned at t = 0 in its pyramid's cone, not counted as
         // entered).
-        let kf = lanes(|l| f64::from(p.skip[l].min(FLAT_FACET + 1)));
+        let kf = lanes(|l| lesser(p.skip[l], f64::from(FLAT_FACET + 1)));
         let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
         let mut valid = mask(|l| p.dz[l] != 0.0);
         for ef in &e {
@@ -1186,6 +1197,24 @@ impl RegularPyramids {
         ];
         std::array::from_fn(|f| lanes(|l| -g[f][l] * ie[f][l]))
     }
+}
+
+/// Which lanes have facet 0, 1, 2, 3 (facet indices as f64).
+#[inline(always)]
+fn face_masks(face: &F) -> [M; 4] {
+    std::array::from_fn(|f| mask(|l| face[l] == f as f64))
+}
+
+/// Per lane, the value of its facet among `values` (one per facet from 0; a lane whose
+/// facet is in none of the masks `is` gets the last value): selects instead of a table
+/// lookup per lane.
+#[inline(always)]
+fn per_face<const N: usize>(is: &[M; 4], values: [f64; N]) -> F {
+    let mut v = [values[N - 1]; LANES];
+    for f in (0..N - 1).rev() {
+        v = pick(is[f], [values[f]; LANES], v);
+    }
+    v
 }
 
 /// The first part of a packet query ([`RegularPyramids::lane_query`]), lane by lane: the
@@ -1745,7 +1774,7 @@ mod tests {
                         Some(Some((t, i, j, k))) => {
                             assert!(crosses && !leaves, "spec {n}: {o:?} {d:?} {skip:?}");
                             let hit = tex.fast_hit_at(o, d, t, i, j, k);
-                            assert_eq!(got.face[l], k, "spec {n}");
+                            assert_eq!(got.face[l], f64::from(k), "spec {n}");
                             assert_eq!([got.x[l], got.y[l], got.z[l]], hit.point.to_array());
                             kinds[0] += 1;
                         }

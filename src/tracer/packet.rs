@@ -286,6 +286,10 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     (tally, obs)
 }
 
+/// 2⁵²: adding it to a whole number below 2⁵² puts the number in the low mantissa bits.
+const TWO_52: f64 = 4_503_599_627_370_496.0;
+const _: () = assert!(HIT_BINS.is_power_of_two()); // the hit bin is masked out of the bits
+
 /// Number of set lanes of `m`.
 #[inline(always)]
 fn count(m: &M) -> u64 {
@@ -317,7 +321,7 @@ impl Refill {
         p.dx = pick(done, [self.d[0]; LANES], p.dx);
         p.dy = pick(done, [self.d[1]; LANES], p.dy);
         p.dz = pick(done, [self.d[2]; LANES], p.dz);
-        p.skip = std::array::from_fn(|l| if on(&done, l) { NO_FACET } else { p.skip[l] });
+        p.skip = pick(done, [f64::from(NO_FACET); LANES], p.skip);
         for (c, s) in fl.stokes.iter_mut().enumerate() {
             *s = pick(done, [self.pol.s[c]; LANES], *s);
         }
@@ -392,8 +396,11 @@ impl Ends {
                 m.add(v);
             }
         }
+        // Event counts are whole numbers ≥ 0: read the capped count from the mantissa after
+        // adding 2⁵² (cheaper than a float-to-integer cast per lane).
+        let capped = lanes(|l| lesser(fl.events[l], (HIT_BINS - 1) as f64) + TWO_52);
         for l in 0..LANES {
-            tally.hits[(fl.events[l] as usize).min(HIT_BINS - 1)] += self.done[l] & 1;
+            tally.hits[capped[l].to_bits() as usize & (HIT_BINS - 1)] += self.done[l] & 1;
             let bin = polar_bin(abs_cos[l]);
             tally.reflected_polar[bin] += r[l];
             tally.transmitted_polar[bin] += t[l];
@@ -583,13 +590,7 @@ struct Meeting {
 impl Meeting {
     #[inline(always)]
     fn new(tex: &RegularPyramids, fl: &Flight, found: &Crossings) -> Meeting {
-        let normals: [Vec3; LANES] =
-            std::array::from_fn(|l| tex.lattice_normal(found.face[l].min(4)));
-        let n = [
-            lanes(|l| normals[l].x),
-            lanes(|l| normals[l].y),
-            lanes(|l| normals[l].z),
-        ];
+        let n = tex.lattice_normal_lanes(&found.face);
         let p = &fl.packet;
         let kn = lanes(|l| (p.dx[l] * n[0][l] + p.dy[l] * n[1][l]) + p.dz[l] * n[2][l]);
         // A ray in the upper medium meets the surface from above (k·n < 0) and vice versa.
@@ -643,7 +644,7 @@ impl Meeting {
         p.dx = pick(go, dir[0], p.dx);
         p.dy = pick(go, dir[1], p.dy);
         p.dz = pick(go, dir[2], p.dz);
-        p.skip = std::array::from_fn(|l| if on(&go, l) { found.face[l] } else { p.skip[l] });
+        p.skip = pick(go, found.face, p.skip);
     }
 }
 
@@ -654,10 +655,10 @@ impl Meeting {
 fn robust_crossing(tex: &RegularPyramids, packet: &Packet, l: usize, found: &mut Crossings) {
     let o = Vec3::new(packet.ox[l], packet.oy[l], packet.oz[l]);
     let d = tex.lattice_to_lab(Vec3::new(packet.dx[l], packet.dy[l], packet.dz[l]));
-    let hit: Option<Hit> = if packet.skip[l] == NO_FACET {
+    let hit: Option<Hit> = if packet.skip[l] == f64::from(NO_FACET) {
         tex.intersect(tex.lattice_to_lab(o), d, None)
     } else {
-        tex.intersect_after(&tex.cell_hit(o.x, o.y, packet.skip[l]), d)
+        tex.intersect_after(&tex.cell_hit(o.x, o.y, packet.skip[l] as u32), d)
     };
     let Some(hit) = hit else {
         found.leaves[l] = u64::MAX;
@@ -666,7 +667,7 @@ fn robust_crossing(tex: &RegularPyramids, packet: &Packet, l: usize, found: &mut
     let face = hit.facet.0;
     let p = tex.home(hit.point);
     found.crosses[l] = u64::MAX;
-    found.face[l] = face;
+    found.face[l] = f64::from(face);
     found.x[l] = p.x;
     found.y[l] = p.y;
     found.z[l] = tex.snap(face, p.x, p.y);
@@ -739,7 +740,7 @@ mod tests {
                 let mut found = Crossings {
                     crosses: [u64::MAX; LANES],
                     leaves: [0; LANES],
-                    face: [0; LANES],
+                    face: [0.0; LANES],
                     x: [1.0; LANES],
                     y: [2.0; LANES],
                     z: [0.5; LANES],
@@ -761,7 +762,7 @@ mod tests {
                     }
                     let e1 = k.cross(Vec3::new(0.3, -0.2, 0.9)).normalize();
                     let st = [1.0, 0.3 * draw.uniform(), -0.4 * draw.uniform(), 0.5];
-                    found.face[l] = face;
+                    found.face[l] = f64::from(face);
                     fl.packet.set(l, Vec3::ZERO, k, face);
                     fl.below[l] = u64::from(below).wrapping_neg();
                     for (c, v) in st.iter().enumerate() {
