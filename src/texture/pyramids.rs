@@ -1782,7 +1782,8 @@ mod tests {
                 }
             }
             eprintln!(
-                "spec {n}: crosses, leaves, undecided = {kinds:?}; {early} of {off_facet} leaving off a facet flagged early"
+                "spec {n}: crosses, leaves, undecided = {kinds:?}; \
+                 {early} of {off_facet} leaving off a facet flagged early"
             );
             assert!(kinds[0] > 10_000 && kinds[1] > 1_000, "spec {n}: {kinds:?}");
             assert!(

@@ -10,8 +10,9 @@
 //! next query ([`RegularPyramids::leaves_packet`]: a ray refracted into the wafer ends in
 //! the round of its last event, not one round later), and refills the lane of a finished
 //! ray with the next ray of the chunk — for rays of a fixed direction without a branch per
-//! lane ([`Ends`], [`Refill`]). Lanes keep their rays in the texture's lattice frame (directions,
-//! Stokes reference axes); rays are rotated into it at launch and back when they leave.
+//! lane ([`Ends`], [`Refill`], [`LaneSums`]). Lanes keep their rays in the texture's lattice
+//! frame (directions, Stokes reference axes); rays are rotated into it at launch and back
+//! when they leave.
 //!
 //! Invariant: the chunk's random streams are drawn in a fixed order (rounds, then lanes), so
 //! a chunk's result depends only on its seed, never on the thread count or the instruction
