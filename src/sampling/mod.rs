@@ -69,9 +69,10 @@ impl Stream {
 }
 
 /// One xoshiro256++ generator per packet lane ([`LANES`]), stored lane by lane, so that one
-/// step of all of them compiles to a few SIMD integer instructions (for the packet tracer,
-/// one random number per ray in flight). The algorithm is xoshiro256++ (D. Blackman & S. Vigna, "Scrambled
-/// linear pseudorandom number generators", ACM TOMS 47(4), 36 (2021)), the generator of
+/// step of all of them compiles to a few SIMD integer instructions (for the packet tracer:
+/// random numbers for the rays in flight). The algorithm is xoshiro256++ (D. Blackman &
+/// S. Vigna, "Scrambled linear pseudorandom number generators", ACM TOMS 47(4), 36 (2021)),
+/// the generator of
 /// [`Stream`]; each lane is seeded from its parent stream through SplitMix64.
 #[derive(Clone, Debug)]
 pub struct LaneStreams {

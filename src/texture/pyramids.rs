@@ -1108,10 +1108,9 @@ impl RegularPyramids {
         let rg = lanes(|l| -p.oz[l] * iz[l]);
         let entering: [M; 4] = std::array::from_fn(|f| mask(|l| e[f][l] < 0.0));
         let rates: [F; 4] = std::array::from_fn(|f| lanes(|l| e[f][l].abs()));
-        // The facet each ray left (pinned at t = 0 in its pyramid's cone, not counted as
-        // entered).
-        let kf = lanes(|l| lesser(p.skip[l], f64::from(FLAT_FACET + 1)));
-        let left: [M; 4] = std::array::from_fn(|f| mask(|l| kf[l] == f as f64));
+        // The face each ray left (pinned at t = 0 in its pyramid's cone, not counted as
+        // entered); none for the ground or no facet.
+        let left = face_masks(&p.skip);
         let mut valid = mask(|l| p.dz[l] != 0.0);
         for ef in &e {
             valid = and(valid, mask(|l| ef[l] != 0.0));
@@ -1178,8 +1177,8 @@ impl RegularPyramids {
         leaves: &mut M,
     ) -> (M, F) {
         let m = self.margin;
-        let tx = q.to_edge(i, &p.ox, &p.dx, q.east, q.west, self.period);
-        let ty = q.to_edge(j, &p.oy, &p.dy, q.north, q.south, self.period);
+        let tx = to_edge_lanes(i, &p.ox, &p.dx, q.east, q.west, self.period);
+        let ty = to_edge_lanes(j, &p.oy, &p.dy, q.north, q.south, self.period);
         let edge = lanes(|l| lesser(tx[l], ty[l]));
         let out_top = and(walking, mask(|l| q.t_top[l] < edge[l] - m)); // out of the slab first
         *leaves = or(*leaves, out_top);
@@ -1211,6 +1210,16 @@ impl RegularPyramids {
         ];
         std::array::from_fn(|f| lanes(|l| -g[f][l] * ie[f][l]))
     }
+}
+
+/// Ray parameter at which each ray reaches the far wall of lattice cell `c` (cell index as
+/// f64) along one axis (origin `x`, direction `dx`, `pos`/`neg` the sign of `dx`); ∞ along
+/// a wall. (`off_touching`'s `to_edge` over the lanes.)
+#[inline(always)]
+fn to_edge_lanes(c: &F, x: &F, dx: &F, pos: M, neg: M, period: f64) -> F {
+    let wall = pick(pos, lanes(|l| c[l] + 1.0), *c);
+    let t = lanes(|l| (wall[l] * period - x[l]) / dx[l]);
+    pick(or(pos, neg), t, [f64::INFINITY; LANES])
 }
 
 /// Which lanes have facet 0, 1, 2, 3 (facet indices as f64).
@@ -1287,16 +1296,6 @@ impl LaneQuery {
         let b_on = and(inside, ground_clear);
         let sinks = and(and(b_on, down), mask(|l| cone.end[l] > rg[l] + m));
         (b_on, sinks)
-    }
-
-    /// Ray parameter at which each ray reaches the far wall of lattice cell `c` (cell index
-    /// as f64) along one axis (origin `x`, direction `dx`, `pos`/`neg` the sign of `dx`);
-    /// ∞ along a wall.
-    #[inline(always)]
-    fn to_edge(&self, c: &F, x: &F, dx: &F, pos: M, neg: M, period: f64) -> F {
-        let wall = pick(pos, lanes(|l| c[l] + 1.0), *c);
-        let t = lanes(|l| (wall[l] * period - x[l]) / dx[l]);
-        pick(or(pos, neg), t, [f64::INFINITY; LANES])
     }
 }
 

@@ -848,21 +848,7 @@ impl RandomPyramids {
         common: &LeanFaces,
     ) -> Option<Option<FastHit<'_>>> {
         let [t_start, t_end, z_lo, z_hi] = limits;
-        // Side the ray starts on: outside the slab, or the side it leaves the skipped facet to
-        // (the sign of the facet's dG/dt, never 0 here).
-        let above = if o.z > z_hi {
-            true
-        } else if o.z < z_lo {
-            false
-        } else {
-            match skip? {
-                GROUND_FACET => d.z > 0.0,
-                f => {
-                    let im = &self.images[((f - 1) / 4) as usize];
-                    Self::faces::<COMMON>(common, im.tan_a, d)?.cap[((f - 1) % 4) as usize] < 0.0
-                }
-            }
-        };
+        let above = self.starts_above::<COMMON>(o, d, skip, [z_lo, z_hi], common)?;
         let ray = self.lean_ray(o, d, skip);
         // A ray leaving a pyramid face down into that pyramid, which reaches the base plane
         // before leaving the pyramid (or the pyramids it passes into), stays below the
@@ -879,6 +865,34 @@ impl RandomPyramids {
             self.fast_above::<COMMON>(&ray, walk, common)
         } else {
             self.fast_below::<COMMON>(&ray, walk, common)
+        }
+    }
+
+    /// Side a ray from `o` along `d` starts on: outside the slab (between `z_lo` and `z_hi`),
+    /// or the side it leaves the skipped facet to (the sign of the facet's dG/dt, never 0
+    /// here). `None` inside the slab without a facet left, or along a face.
+    #[inline(always)]
+    fn starts_above<const COMMON: bool>(
+        &self,
+        o: Vec3,
+        d: Vec3,
+        skip: Option<u32>,
+        [z_lo, z_hi]: [f64; 2],
+        common: &LeanFaces,
+    ) -> Option<bool> {
+        if o.z > z_hi {
+            return Some(true);
+        }
+        if o.z < z_lo {
+            return Some(false);
+        }
+        match skip? {
+            GROUND_FACET => Some(d.z > 0.0),
+            f => {
+                let im = &self.images[((f - 1) / 4) as usize];
+                let faces = Self::faces::<COMMON>(common, im.tan_a, d)?;
+                Some(faces.cap[((f - 1) % 4) as usize] < 0.0)
+            }
         }
     }
 
@@ -975,19 +989,8 @@ impl RandomPyramids {
         facet: u32,
     ) -> bool {
         // The side the ray starts on, as `fast_walk` finds it: only from below.
-        let (z_lo, z_hi) = (-self.pad, self.z_max + self.pad);
-        let im = &self.images[((facet - 1) / 4) as usize];
-        let above = if o.z > z_hi {
-            true
-        } else if o.z < z_lo {
-            false
-        } else {
-            match Self::faces::<COMMON>(common, im.tan_a, d) {
-                Some(f) => f.cap[((facet - 1) % 4) as usize] < 0.0,
-                None => return false,
-            }
-        };
-        if above {
+        let slab = [-self.pad, self.z_max + self.pad];
+        if self.starts_above::<COMMON>(o, d, Some(facet), slab, common) != Some(false) {
             return false;
         }
         let ray = self.lean_ray(o, d, Some(facet));

@@ -93,8 +93,8 @@ pub(super) fn trace_chunk<R: FacetResponse + ?Sized, O: ExitObserver>(
 }
 
 /// Whether to run the AVX2 build of the packet tracer: the processor has AVX2 and the
-/// environment variable `LIGHTFOLD_NO_AVX2` is not set (valgrind, which the instruction
-/// counts of `scripts/bench` use, cannot decode all AVX2 instructions).
+/// environment variable `LIGHTFOLD_NO_AVX2` is not set (`scripts/bench` counts the baseline
+/// build's instructions too, comparable from session to session).
 #[cfg(target_arch = "x86_64")]
 fn avx2() -> bool {
     static AVX2: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
@@ -145,7 +145,16 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         let e1 = tex.to_lattice(pol.e1);
         (dir, tex.to_lattice(dir), Polarised { s: pol.s, e1 })
     });
-    let period = tex.period_um()[0];
+    // Where rays of a fixed direction start, and the medium every ray starts in.
+    let below_in = side_mask(side_in);
+    let start = fixed.map(|(_, dir, pol)| Refill {
+        z: z_entry,
+        d: dir.to_array(),
+        pol,
+        below: below_in,
+        period: tex.period_um()[0],
+        edge: tex.period_below(),
+    });
     // Index ratios n₁/n₂ for refraction from above and from below.
     let ratios = (
         surface.n_above / surface.n_below,
@@ -162,14 +171,12 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
             return;
         }
         *launched += 1;
-        let (start, o, d, pol) = match fixed {
-            Some((lab, dir, pol)) => {
+        let (start_dir, o, d, pol) = match (fixed, &start) {
+            (Some((lab, dir, pol)), Some(start)) => {
                 let (u, v) = (rng.uniform(), rng.uniform());
-                let edge = tex.period_below();
-                let o = Vec3::new(lesser(u * period, edge), lesser(v * period, edge), z_entry);
-                (lab, o, dir, pol)
+                (lab, Vec3::new(start.at(u), start.at(v), start.z), dir, pol)
             }
-            None => {
+            _ => {
                 let ray = launcher.ray(rng);
                 let e1 = tex.to_lattice(ray.pol.e1);
                 let pol = Polarised { s: ray.pol.s, e1 };
@@ -183,13 +190,13 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         for (c, v) in pol.e1.to_array().iter().enumerate() {
             fl.e1[c][l] = *v;
         }
-        fl.below[l] = u64::from(side_in == Side::Below).wrapping_neg();
+        fl.below[l] = below_in;
         fl.events[l] = 0.0;
         for layer in &mut fl.film[..n_layers] {
             layer[l] = 0.0;
         }
         fl.active[l] = true;
-        fl.start[l] = start;
+        fl.start[l] = start_dir;
     };
     for l in 0..LANES {
         launch(&mut fl, l, &mut launched, rng);
@@ -197,14 +204,7 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
     // Rays of a fixed direction, not watched one by one: finished lanes are booked and
     // refilled over the lanes without a branch per lane (which lanes finish in a round is
     // unpredictable, and each mispredicted branch would wait for the whole round).
-    let refill = fixed.filter(|_| !O::WATCHES).map(|(_, dir, pol)| Refill {
-        o: [0.0, 0.0, z_entry],
-        d: dir.to_array(),
-        pol,
-        below: u64::from(side_in == Side::Below).wrapping_neg(),
-        period,
-        edge: tex.period_below(),
-    });
+    let refill = start.as_ref().filter(|_| !O::WATCHES);
     let mut sums = LaneSums::default();
     let max_events = [f64::from(MAX_EVENTS); LANES];
     let mut film = [0.0; MAX_FILM_LAYERS];
@@ -249,7 +249,7 @@ fn trace_chunk_body<R: FacetResponse + ?Sized, O: ExitObserver>(
         let leaving = and_not(and(crossing, tex.leaves_packet(&fl.packet)), gone);
         let out = or(and(active, found.leaves), leaving);
         let done = or(or(out, gone), limited);
-        if let Some(refill) = &refill {
+        if let Some(refill) = refill {
             let n_done = count(&done);
             if launched + n_done <= rays {
                 let ends = Ends::new(side_in, &fl, done, out, limited, lost);
@@ -299,11 +299,17 @@ fn count(m: &M) -> u64 {
     m.iter().map(|&b| b & 1).sum()
 }
 
+/// All lanes set (`side` = below) or none: the medium mask of a ray in `side`.
+#[inline(always)]
+fn side_mask(side: Side) -> u64 {
+    u64::from(side == Side::Below).wrapping_neg()
+}
+
 /// What a lane holds at the start of a ray of a fixed direction (lattice frame): the
-/// origin's height (x and y drawn uniformly over the unit cell, `period` wide, the far edge
-/// at `edge`), the direction, the polarisation, the medium.
+/// origin's height `z` (x and y drawn uniformly over the unit cell, [`Refill::at`]), the
+/// direction, the polarisation, the medium mask.
 struct Refill {
-    o: [f64; 3],
+    z: f64,
     d: [f64; 3],
     pol: Polarised,
     below: u64,
@@ -312,15 +318,22 @@ struct Refill {
 }
 
 impl Refill {
+    /// The coordinate of a start point at `u` ∈ [0, 1) of the cell's side (`period` wide,
+    /// kept below the far edge `edge` against rounding).
+    #[inline(always)]
+    fn at(&self, u: f64) -> f64 {
+        lesser(u * self.period, self.edge)
+    }
+
     /// Starts a new ray in every `done` lane (the starting points from `rng`, two numbers
     /// per lane and call, used or not, so the streams' order never depends on the lanes).
     #[inline(always)]
     fn fill(&self, fl: &mut Flight, done: M, n_layers: usize, rng: &mut LaneStreams) {
         let (u, v) = (rng.uniform(), rng.uniform());
         let p = &mut fl.packet;
-        p.ox = pick(done, lanes(|l| lesser(u[l] * self.period, self.edge)), p.ox);
-        p.oy = pick(done, lanes(|l| lesser(v[l] * self.period, self.edge)), p.oy);
-        p.oz = pick(done, [self.o[2]; LANES], p.oz);
+        p.ox = pick(done, lanes(|l| self.at(u[l])), p.ox);
+        p.oy = pick(done, lanes(|l| self.at(v[l])), p.oy);
+        p.oz = pick(done, [self.z; LANES], p.oz);
         p.dx = pick(done, [self.d[0]; LANES], p.dx);
         p.dy = pick(done, [self.d[1]; LANES], p.dy);
         p.dz = pick(done, [self.d[2]; LANES], p.dz);
@@ -363,7 +376,7 @@ impl Ends {
             and_not(mask(|l| dz[l] > 0.0), fl.below),
         );
         let left = and(and(done, out), away);
-        let below_in = u64::from(side_in == Side::Below).wrapping_neg();
+        let below_in = side_mask(side_in);
         let far = mask(|l| (fl.below[l] ^ below_in) != 0);
         let stopped = and_not(and(done, limited), out);
         Ends {
