@@ -8,7 +8,8 @@
 
 use lightfold::geometry::Vec3;
 use lightfold::texture::pyramids::RegularPyramidsSpec;
-use lightfold::texture::{Planar, RegularPyramids, Texture};
+use lightfold::texture::random::RandomPyramidsSpec;
+use lightfold::texture::{Planar, RandomPyramids, RegularPyramids, Texture};
 use lightfold::thinfilm::{FilmStack, Layer};
 use lightfold::tracer::{
     BareInterface, CoatedInterface, CoatingGeometry, Incidence, InputPolarisation,
@@ -414,12 +415,13 @@ fn agree(a: lightfold::tracer::Estimate, b: lightfold::tracer::Estimate, what: &
 
 #[test]
 fn ray_packets_agree_with_rays_traced_one_at_a_time() {
-    // Upright pyramids are traced four rays at a time (tracer::packet) with their own random
-    // numbers; the physics must be that of the one-ray tracer. Independent runs of both,
-    // compared within their standard errors, for: bare facets with unpolarised light (the
-    // lane-wise event path), coated facets with Stokes tracking on a rotated lattice with
-    // flat gaps (the general event path and the robust walk for the ground), and light
-    // from inside (isotropic launch).
+    // Upright regular and random pyramids are traced four rays at a time (tracer::packet)
+    // with their own random numbers; the physics must be that of the one-ray tracer.
+    // Independent runs of both, compared within their standard errors, for: bare facets
+    // with unpolarised light (the lane-wise event path), coated facets with Stokes tracking
+    // on a rotated lattice with flat gaps (the general event path and the robust walk for
+    // the ground), light from inside (isotropic launch), and random pyramids at normal
+    // incidence (the vertical shortcut), oblique incidence and from inside.
     let touching = RegularPyramids::new(RegularPyramidsSpec::upright(5.0)).unwrap();
     let gapped = RegularPyramids::new(RegularPyramidsSpec {
         period_um: 6.5,
@@ -451,18 +453,27 @@ fn ray_packets_agree_with_rays_traced_one_at_a_time() {
         phi: 0.4,
         polarisation: InputPolarisation::S,
     };
+    let random = RandomPyramids::new(RandomPyramidsSpec::log_normal_height(2.0, 0.35, 5)).unwrap();
     let cases: [(
-        &RegularPyramids,
+        &dyn Texture,
         &dyn lightfold::tracer::FacetResponse,
         Incidence,
         PolarisationMode,
-    ); 4] = [
+    ); 7] = [
         (&touching, &bare, normal, PolarisationMode::Unpolarised),
         (&touching, &coated, oblique, PolarisationMode::Unpolarised),
         (&gapped, &coated, oblique, PolarisationMode::Stokes),
         (
             &touching,
             &bare,
+            Incidence::BelowIsotropic,
+            PolarisationMode::Stokes,
+        ),
+        (&random, &coated, normal, PolarisationMode::Stokes),
+        (&random, &bare, oblique, PolarisationMode::Unpolarised),
+        (
+            &random,
+            &coated,
             Incidence::BelowIsotropic,
             PolarisationMode::Stokes,
         ),

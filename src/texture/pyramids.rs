@@ -886,6 +886,21 @@ pub struct Crossings {
     pub z: [f64; LANES],
 }
 
+impl Crossings {
+    /// No lane decided yet.
+    #[inline(always)]
+    pub fn none() -> Crossings {
+        Crossings {
+            crosses: [0; LANES],
+            leaves: [0; LANES],
+            face: [0.0; LANES],
+            x: [0.0; LANES],
+            y: [0.0; LANES],
+            z: [0.0; LANES],
+        }
+    }
+}
+
 impl RegularPyramids {
     /// Whether [`Self::cross_packet`] serves this texture (upright pyramids; inverted ones
     /// are traced one ray at a time).

@@ -1333,6 +1333,18 @@ impl RandomPyramids {
         (q, u, v, err)
     }
 
+    /// [`Texture::intersect`] by the walk (fast, else robust), for every ray.
+    #[inline(always)]
+    fn walk_intersect(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<Hit> {
+        let (skip, [t_start, t_end, z_lo, z_hi]) = self.query(o, d, skip)?;
+        if d.z != 0.0
+            && let Some(found) = self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
+        {
+            return found.map(|h| self.fast_hit(o, d, h));
+        }
+        self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
+    }
+
     /// The hit of a crossing found by the fast path: the point in the tile frame, snapped onto
     /// the surface, as the robust walk makes it.
     #[inline(always)]
@@ -1357,13 +1369,35 @@ impl RandomPyramids {
             }
         };
         let (x, y) = (inside(p.x - tx), inside(p.y - ty));
-        // The envelope, without the pyramids that cannot reach the running maximum (the
-        // list is sorted by the highest point over the cell, a bound for every point of it):
-        // the result of `envelope`. A face's height a·x + b·y + w, with one of a, b zero and
-        // x, y ≥ 0, is a·x + w to the bit (adding the zero term changes nothing but the sign
-        // of a zero, which adding w then drops).
+        let (z, active) = self.envelope_over(items, x, y);
+        let z_err = match active {
+            Some((it, k)) => self.images[it.image as usize].planes[k as usize].z_err(x, y),
+            None => HeightPlane::GROUND.z_err(x, y),
+        };
+        facet_hit(
+            t,
+            Vec3::new(x, y, z),
+            snapped_err(x, y, z_err),
+            self.facet_normal(facet),
+            facet,
+        )
+    }
+
+    /// The envelope of a cell's `items` at tile point (x, y) and the item and face giving
+    /// it (`None`: the base plane), without the pyramids that cannot reach the running
+    /// maximum (the list is sorted by the highest point over the cell, a bound for every
+    /// point of it): the result of [`Self::envelope`]. A face's height a·x + b·y + w, with
+    /// one of a, b zero and x, y ≥ 0, is a·x + w to the bit (adding the zero term changes
+    /// nothing but the sign of a zero, which adding w then drops).
+    #[inline(always)]
+    fn envelope_over<'a>(
+        &self,
+        items: &'a [Item],
+        x: f64,
+        y: f64,
+    ) -> (f64, Option<(&'a Item, u32)>) {
         let mut z = 0.0;
-        let mut active: Option<(&Item, usize)> = None;
+        let mut active = None;
         for it in items {
             if it.top + self.pad < z {
                 break;
@@ -1378,17 +1412,53 @@ impl RandomPyramids {
                 (z, active) = (zi, Some((it, k)));
             }
         }
-        let z_err = match active {
-            Some((it, k)) => self.images[it.image as usize].planes[k].z_err(x, y),
-            None => HeightPlane::GROUND.z_err(x, y),
-        };
-        let normal = if facet == GROUND_FACET {
+        (z, active)
+    }
+
+    /// Up normal of facet `facet` of the tile.
+    #[inline(always)]
+    fn facet_normal(&self, facet: u32) -> Vec3 {
+        if facet == GROUND_FACET {
             Vec3::Z
         } else {
             self.images[((facet - 1) / 4) as usize].normal((facet - 1) % 4)
+        }
+    }
+
+    /// The crossing of a vertical ray from above the slab (`d` = (0, 0, −1), `o.z` above
+    /// the padded slab): straight below its origin, at the envelope's height there, on the
+    /// facet giving it — what the walk ([`Self::fast_above`], then [`Self::fast_hit`])
+    /// finds, without the walk (one cell, its envelope once). The walk takes the facet from
+    /// the earliest entry and the height from the envelope; here both come from the
+    /// envelope, so they cannot disagree at a valley (test:
+    /// `vertical_launches_agree_with_the_walk`).
+    #[inline(always)]
+    fn vertical_hit(&self, o: Vec3, d: Vec3) -> Hit {
+        let inv_cell = 1.0 / self.cell;
+        let n = self.grid_n;
+        let (ti, li) = tile_and_cell(floor_i64(o.x * inv_cell), n);
+        let (tj, lj) = tile_and_cell(floor_i64(o.y * inv_cell), n);
+        let (items, _) = self.cell_items(li, lj);
+        let below = self.tile_below;
+        let inside = |v: f64| lesser(greater(v, 0.0), below);
+        let (x, y) = (
+            inside(o.x - ti as f64 * self.tile),
+            inside(o.y - tj as f64 * self.tile),
+        );
+        let (z, active) = self.envelope_over(items, x, y);
+        let (facet, z_err, normal) = match active {
+            Some((it, k)) => {
+                let im = &self.images[it.image as usize];
+                (
+                    1 + 4 * it.image + k,
+                    im.planes[k as usize].z_err(x, y),
+                    im.normal(k),
+                )
+            }
+            None => (GROUND_FACET, HeightPlane::GROUND.z_err(x, y), Vec3::Z),
         };
         facet_hit(
-            t,
+            (z - o.z) / d.z,
             Vec3::new(x, y, z),
             snapped_err(x, y, z_err),
             normal,
@@ -1872,13 +1942,10 @@ impl Texture for RandomPyramids {
     }
 
     fn intersect(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<Hit> {
-        let (skip, [t_start, t_end, z_lo, z_hi]) = self.query(o, d, skip)?;
-        if d.z != 0.0
-            && let Some(found) = self.fast_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
-        {
-            return found.map(|h| self.fast_hit(o, d, h));
+        if d.x == 0.0 && d.y == 0.0 && d.z < 0.0 && o.z > self.z_max + self.pad {
+            return Some(self.vertical_hit(o, d));
         }
-        self.robust_crossing(o, d, skip, t_start, t_end, z_lo, z_hi)
+        self.walk_intersect(o, d, skip)
     }
 
     /// The default (from just off the facet, with the facet as `skip`), with a ray that sinks
@@ -2151,5 +2218,71 @@ mod tests {
             "coverage {}",
             tex.coverage()
         );
+    }
+
+    #[test]
+    fn vertical_launches_agree_with_the_walk() {
+        // The shortcut for vertical rays from above (`vertical_hit`) must answer as the walk
+        // does (`walk_intersect`: fast path, else robust): same facet, point, error box and
+        // normal, at random points, on cell walls and tile edges (exactly), and from
+        // origins outside the home tile (wrapped).
+        let specs = [
+            RandomPyramidsSpec::log_normal_height(3.0, 0.35, 1),
+            RandomPyramidsSpec {
+                size: SizeDistribution::Uniform {
+                    min_um: 1.0,
+                    max_um: 4.0,
+                },
+                angle_spread_deg: 1.5,
+                pyramid_count: 150,
+                coverage_target: 0.8,
+                ..RandomPyramidsSpec::log_normal_height(2.0, 0.0, 3)
+            },
+        ];
+        for (n, spec) in specs.into_iter().enumerate() {
+            let tex = RandomPyramids::new(spec).unwrap();
+            let (l, (cell, cells)) = (tex.tile_um(), tex.grid());
+            let z0 = tex.z_range_um()[1] + 0.5;
+            let mut rng = Stream::new(31, n as u64, 0);
+            let (mut ground, mut faces) = (0, 0);
+            for k in 0..20_000 {
+                let (u, v) = (rng.uniform(), rng.uniform());
+                let (x, y) = match k % 4 {
+                    0 | 1 => (u * l, v * l),
+                    // on a cell wall (x) and a cell corner
+                    2 => ((u * cells as f64).floor() * cell, v * l),
+                    _ => (
+                        (u * cells as f64).floor() * cell,
+                        (v * cells as f64).floor() * cell,
+                    ),
+                };
+                // every other ray from a neighbouring tile's copy of the point
+                let shift = if k % 2 == 0 {
+                    0.0
+                } else {
+                    l * (1.0 - 2.0 * (k % 3) as f64)
+                };
+                let o = Vec3::new(x + shift, y - shift, z0);
+                let fast = tex.vertical_hit(o, Vec3::NEG_Z);
+                let walk = tex.walk_intersect(o, Vec3::NEG_Z, None).unwrap();
+                let case = format!("tile {n}, ray {k} at ({x}, {y})");
+                assert_eq!(fast.facet, walk.facet, "{case}");
+                assert_eq!(fast.point, walk.point, "{case}");
+                assert_eq!(fast.p_err, walk.p_err, "{case}");
+                assert_eq!(fast.normal, walk.normal, "{case}");
+                assert!((fast.t - walk.t).abs() <= 1e-12 * walk.t, "{case}");
+                if fast.facet.0 == GROUND_FACET {
+                    ground += 1;
+                } else {
+                    faces += 1;
+                }
+            }
+            // Both kinds of facet were met (the gapped tile shows its base plane).
+            assert!(faces > 15_000, "tile {n}: {faces} pyramid faces");
+            assert!(
+                n == 0 || ground > 500,
+                "tile {n}: {ground} on the base plane"
+            );
+        }
     }
 }

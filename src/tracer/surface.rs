@@ -8,6 +8,7 @@
 //! weight is renormalised to R + T, an unbiased "implicit absorption" estimator).
 //! Invariant: for every ray, reflected + transmitted + Σ film + abandoned = its initial weight.
 
+use super::packet::LaneTexture;
 use super::polarisation::{self, Polarised};
 use super::response::{BareInterface, CoatedInterface, FacetResponse, FacetSample, Side, other};
 use super::tally::{HIT_BINS, Tally, polar_bin};
@@ -224,9 +225,9 @@ impl<'a> Surface<'a> {
             };
         }
         if let Some(t) = texture.downcast_ref::<RegularPyramids>() {
-            with_response!(run_pyramids, t)
+            with_response!(run_lanes, t)
         } else if let Some(t) = texture.downcast_ref::<RandomPyramids>() {
-            with_response!(run, t)
+            with_response!(run_lanes, t)
         } else {
             job.run(self, self.texture, self.response)
         }
@@ -523,13 +524,13 @@ impl<'a> Surface<'a> {
             ) -> Self::Out {
                 surface.trace_chunk_in(texture, response, self.incidence, self.rays, self.rng)
             }
-            fn run_pyramids<R: FacetResponse + ?Sized>(
+            fn run_lanes<T: LaneTexture, R: FacetResponse + ?Sized>(
                 self,
                 surface: &Surface,
-                texture: &RegularPyramids,
+                texture: &T,
                 response: &R,
             ) -> Self::Out {
-                if self.packets && texture.has_packet_path() {
+                if self.packets && texture.has_lane_path() {
                     super::packet::trace_chunk(
                         surface,
                         texture,
@@ -697,11 +698,12 @@ trait Typed: Sized {
         texture: &T,
         response: &R,
     ) -> Self::Out;
-    /// [`Self::run`] for regular pyramids (jobs with a packet path override it).
-    fn run_pyramids<R: FacetResponse + ?Sized>(
+    /// [`Self::run`] for textures the packet tracer serves (jobs with a packet path
+    /// override it).
+    fn run_lanes<T: LaneTexture, R: FacetResponse + ?Sized>(
         self,
         surface: &Surface,
-        texture: &RegularPyramids,
+        texture: &T,
         response: &R,
     ) -> Self::Out {
         self.run(surface, texture, response)
