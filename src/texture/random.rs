@@ -253,6 +253,8 @@ pub struct RandomPyramids {
     max_tan: f64,
     /// The facet slope tan α shared by all pyramids, if there is no angle spread.
     common_tan: Option<f64>,
+    /// The face normals shared by all pyramids, if there is no angle spread.
+    common_normals: Option<[Vec3; 4]>,
     coverage: f64,
 }
 
@@ -430,6 +432,7 @@ impl RandomPyramids {
             fast_margin: 0.0,
             max_tan: 0.0,
             common_tan: None,
+            common_normals: None,
             coverage: 0.0,
         };
         tex.build_images();
@@ -439,6 +442,8 @@ impl RandomPyramids {
         tex.max_tan = tex.images.iter().map(|im| im.tan_a).fold(0.0, f64::max);
         let first_tan = tex.images.first().map(|im| im.tan_a);
         tex.common_tan = first_tan.filter(|&t| tex.images.iter().all(|im| im.tan_a == t));
+        let first_normals = tex.images.first().map(|im| im.normals);
+        tex.common_normals = first_normals.filter(|&n| tex.images.iter().all(|im| im.normals == n));
         let scale = (1.0 + 3.0 * tex.max_tan) * tile + 2.0 * tex.z_max;
         tex.tol = super::on_plane_tol(scale);
         tex.depth = super::depth_tol(scale);
@@ -1371,7 +1376,7 @@ impl RandomPyramids {
         let (x, y) = (inside(p.x - tx), inside(p.y - ty));
         let (z, active) = self.envelope_over(items, x, y);
         let z_err = match active {
-            Some((it, k)) => self.images[it.image as usize].planes[k as usize].z_err(x, y),
+            Some((it, k)) => face_err(it, k, x, y),
             None => HeightPlane::GROUND.z_err(x, y),
         };
         facet_hit(
@@ -1415,14 +1420,60 @@ impl RandomPyramids {
         (z, active)
     }
 
-    /// Up normal of facet `facet` of the tile.
+    /// Up normal of facet `facet` of the tile (from the normals shared by all pyramids where
+    /// they are: the pyramid's own record is not read).
     #[inline(always)]
     fn facet_normal(&self, facet: u32) -> Vec3 {
         if facet == GROUND_FACET {
             Vec3::Z
+        } else if let Some(n) = &self.common_normals {
+            n[((facet - 1) % 4) as usize]
         } else {
             self.images[((facet - 1) / 4) as usize].normal((facet - 1) % 4)
         }
+    }
+
+    /// Whether [`Texture::intersect`] answers a ray from `o` along `d` by
+    /// [`Self::vertical_hit`]: vertical, downward, from above the padded slab.
+    #[inline(always)]
+    fn is_vertical_launch(&self, o: Vec3, d: Vec3) -> bool {
+        d.x == 0.0 && d.y == 0.0 && d.z < 0.0 && o.z > self.z_max + self.pad
+    }
+
+    /// The cell list a vertical ray through `o` reads (see [`Self::vertical_hit`]).
+    #[inline(always)]
+    fn vertical_cell(&self, o: Vec3) -> ((i64, i64), &CellList) {
+        let inv_cell = 1.0 / self.cell;
+        let n = self.grid_n;
+        let (ti, li) = tile_and_cell(floor_i64(o.x * inv_cell), n);
+        let (tj, lj) = tile_and_cell(floor_i64(o.y * inv_cell), n);
+        ((ti, tj), &self.cells[(lj * n + li) as usize])
+    }
+
+    /// Asks the processor to start loading the cell list that [`Texture::intersect`] will
+    /// read for a ray from `o` along `d`, if it is a vertical launch: called for several
+    /// rays before their queries, the memory accesses of the rays overlap instead of each
+    /// query waiting for its own. No effect on any result.
+    #[inline(always)]
+    pub fn prefetch_launch(&self, o: Vec3, d: Vec3) {
+        if self.is_vertical_launch(o, d) {
+            let items = &self.vertical_cell(o).1.items;
+            if let Some(first) = items.first() {
+                prefetch(first);
+                // the item's second cache line (items are 80 bytes)
+                prefetch(first.w.as_ptr().wrapping_add(3));
+            }
+        }
+    }
+
+    /// [`Texture::intersect`] for a ray entering the slab (no facet left), with the
+    /// vertical shortcut inlined into the caller.
+    #[inline(always)]
+    pub fn intersect_entering(&self, o: Vec3, d: Vec3) -> Option<Hit> {
+        if self.is_vertical_launch(o, d) {
+            return Some(self.vertical_hit(o, d));
+        }
+        self.intersect(o, d, None)
     }
 
     /// The crossing of a vertical ray from above the slab (`d` = (0, 0, −1), `o.z` above
@@ -1434,11 +1485,8 @@ impl RandomPyramids {
     /// `vertical_launches_agree_with_the_walk`).
     #[inline(always)]
     fn vertical_hit(&self, o: Vec3, d: Vec3) -> Hit {
-        let inv_cell = 1.0 / self.cell;
-        let n = self.grid_n;
-        let (ti, li) = tile_and_cell(floor_i64(o.x * inv_cell), n);
-        let (tj, lj) = tile_and_cell(floor_i64(o.y * inv_cell), n);
-        let (items, _) = self.cell_items(li, lj);
+        let ((ti, tj), cell) = self.vertical_cell(o);
+        let items = &cell.items;
         let below = self.tile_below;
         let inside = |v: f64| lesser(greater(v, 0.0), below);
         let (x, y) = (
@@ -1448,12 +1496,8 @@ impl RandomPyramids {
         let (z, active) = self.envelope_over(items, x, y);
         let (facet, z_err, normal) = match active {
             Some((it, k)) => {
-                let im = &self.images[it.image as usize];
-                (
-                    1 + 4 * it.image + k,
-                    im.planes[k as usize].z_err(x, y),
-                    im.normal(k),
-                )
+                let facet = 1 + 4 * it.image + k;
+                (facet, face_err(it, k, x, y), self.facet_normal(facet))
             }
             None => (GROUND_FACET, HeightPlane::GROUND.z_err(x, y), Vec3::Z),
         };
@@ -1907,6 +1951,29 @@ struct Lean {
     re: f64,
 }
 
+/// [`HeightPlane::z_err`] at (x, y) of face `k` of the pyramid image of item `it`, from the
+/// item's copies (the face's slope is ±tan α along one axis and 0 along the other: the same
+/// bits), without reading the image.
+#[inline(always)]
+fn face_err(it: &Item, k: u32, x: f64, y: f64) -> f64 {
+    let u = it.tan_a * [x, y][(k >> 1) as usize];
+    gamma(3) * (u.abs() + it.w[k as usize].abs())
+}
+
+/// A hint to the processor to bring the cache line holding `x` into the cache (no effect
+/// on results; nothing on processors without the instruction).
+#[inline(always)]
+fn prefetch<T>(x: *const T) {
+    #[cfg(target_arch = "x86_64")]
+    // SAFETY: a prefetch never faults and reads nothing into the program, whatever the
+    // address (SSE, present on every x86-64).
+    unsafe {
+        std::arch::x86_64::_mm_prefetch::<{ std::arch::x86_64::_MM_HINT_T0 }>(x.cast());
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    let _ = x;
+}
+
 /// Tile index and cell within the tile of grid cell `g` (n cells per tile): the Euclidean
 /// quotient and remainder, without an integer division for the tile and its neighbours
 /// (where nearly every ray is).
@@ -1942,7 +2009,7 @@ impl Texture for RandomPyramids {
     }
 
     fn intersect(&self, o: Vec3, d: Vec3, skip: Option<FacetId>) -> Option<Hit> {
-        if d.x == 0.0 && d.y == 0.0 && d.z < 0.0 && o.z > self.z_max + self.pad {
+        if self.is_vertical_launch(o, d) {
             return Some(self.vertical_hit(o, d));
         }
         self.walk_intersect(o, d, skip)

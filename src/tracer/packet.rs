@@ -167,41 +167,48 @@ impl LaneTexture for RandomPyramids {
 
     #[inline(always)]
     fn cross_lanes(&self, p: &Packet, active: M, memo: &mut HitMemo) -> Crossings {
-        let mut found = Crossings::none();
+        let fresh = and(active, mask(|l| p.skip[l] == f64::from(NO_FACET)));
         for l in 0..LANES {
-            if !on(&active, l) {
-                continue;
-            }
-            let hit = if p.skip[l] == f64::from(NO_FACET) {
+            if on(&fresh, l) {
                 let o = Vec3::new(p.ox[l], p.oy[l], p.oz[l]);
-                self.intersect(o, Vec3::new(p.dx[l], p.dy[l], p.dz[l]), None)
-            } else {
-                memo.next[l]
-            };
-            match hit {
-                Some(hit) => {
-                    found.crosses[l] = u64::MAX;
-                    found.face[l] = f64::from(hit.facet.0);
-                    found.x[l] = hit.point.x;
-                    found.y[l] = hit.point.y;
-                    found.z[l] = hit.point.z;
-                    memo.hit[l] = hit;
-                }
-                None => found.leaves[l] = u64::MAX,
+                self.prefetch_launch(o, Vec3::new(p.dx[l], p.dy[l], p.dz[l]));
             }
         }
+        let mut found = Crossings::none();
+        for l in 0..LANES {
+            if on(&fresh, l) {
+                let o = Vec3::new(p.ox[l], p.oy[l], p.oz[l]);
+                match self.intersect_entering(o, Vec3::new(p.dx[l], p.dy[l], p.dz[l])) {
+                    Some(hit) => memo.hit[l] = hit,
+                    None => found.leaves[l] = u64::MAX,
+                }
+            }
+            // (other active lanes cross where `leaves_lanes` found after their last event)
+        }
+        let crosses = and_not(active, found.leaves);
+        let h = &memo.hit;
+        found.crosses = crosses;
+        found.face = lanes(|l| f64::from(h[l].facet.0));
+        found.x = lanes(|l| h[l].point.x);
+        found.y = lanes(|l| h[l].point.y);
+        found.z = lanes(|l| h[l].point.z);
         found
     }
 
+    /// The next crossing of each `moved` lane, kept in `memo` for the next round.
     #[inline(always)]
     fn leaves_lanes(&self, p: &Packet, moved: M, memo: &mut HitMemo) -> M {
-        for l in 0..LANES {
+        let mut leaves = [0; LANES];
+        for (l, left) in leaves.iter_mut().enumerate() {
             if on(&moved, l) {
                 let d = Vec3::new(p.dx[l], p.dy[l], p.dz[l]);
-                memo.next[l] = self.intersect_after(&memo.hit[l], d);
+                match self.intersect_after(&memo.hit[l], d) {
+                    Some(hit) => memo.hit[l] = hit,
+                    None => *left = u64::MAX,
+                }
             }
         }
-        mask(|l| memo.next[l].is_none())
+        leaves
     }
 
     #[inline(always)]
@@ -237,10 +244,9 @@ impl LaneTexture for RandomPyramids {
 }
 
 /// Per lane: the hit of its present crossing (for the facet event and the query after it),
-/// and the next crossing found right after the event (`None`: it leaves the slab).
+/// replaced right after the event by the next crossing (unless the ray leaves).
 pub(super) struct HitMemo {
     hit: [Hit; LANES],
-    next: [Option<Hit>; LANES],
 }
 
 impl Default for HitMemo {
@@ -252,10 +258,7 @@ impl Default for HitMemo {
             normal: Vec3::Z,
             facet: crate::geometry::FacetId(NO_FACET),
         };
-        HitMemo {
-            hit: [hit; LANES],
-            next: [None; LANES],
-        }
+        HitMemo { hit: [hit; LANES] }
     }
 }
 
