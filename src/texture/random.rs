@@ -1466,6 +1466,16 @@ impl RandomPyramids {
         }
     }
 
+    /// [`Texture::intersect_after`] from the start point `origin` it computes (just off
+    /// `facet`, [`crate::geometry::robust::offset_origin`]).
+    #[inline]
+    pub fn intersect_off(&self, origin: Vec3, dir: Vec3, facet: FacetId) -> Option<Hit> {
+        if self.sinks_at_once(origin, dir, facet.0) {
+            return None;
+        }
+        self.intersect(origin, dir, Some(facet))
+    }
+
     /// [`Texture::intersect`] for a ray entering the slab (no facet left), with the
     /// vertical shortcut inlined into the caller.
     #[inline(always)]
@@ -2019,10 +2029,7 @@ impl Texture for RandomPyramids {
     /// into the pyramid it leaves answered at once (`sinks_at_once`).
     fn intersect_after(&self, from: &Hit, dir: Vec3) -> Option<Hit> {
         let origin = offset_origin(from.point, from.p_err, from.normal, dir);
-        if self.sinks_at_once(origin, dir, from.facet.0) {
-            return None;
-        }
-        self.intersect(origin, dir, Some(from.facet))
+        self.intersect_off(origin, dir, from.facet)
     }
 
     fn facet_tilts_deg(&self) -> Vec<f64> {

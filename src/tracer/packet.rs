@@ -26,6 +26,7 @@ use super::surface::{
 };
 use super::tally::{HIT_BINS, Moments, Tally, polar_bin};
 use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
+use crate::geometry::robust::offset_origin_lanes;
 use crate::geometry::{Hit, Vec3, greater, lesser};
 use crate::sampling::{LaneStreams, Stream};
 use crate::texture::pyramids::{Crossings, NO_FACET, Packet};
@@ -198,11 +199,18 @@ impl LaneTexture for RandomPyramids {
     /// The next crossing of each `moved` lane, kept in `memo` for the next round.
     #[inline(always)]
     fn leaves_lanes(&self, p: &Packet, moved: M, memo: &mut HitMemo) -> M {
+        // The start points of `intersect_after`, over the lanes.
+        let h = &memo.hit;
+        let point = [0, 1, 2].map(|c| lanes(|l| h[l].point[c]));
+        let err = [0, 1, 2].map(|c| lanes(|l| h[l].p_err[c]));
+        let normal = [0, 1, 2].map(|c| lanes(|l| h[l].normal[c]));
+        let o = offset_origin_lanes(&point, &err, &normal, &[p.dx, p.dy, p.dz]);
         let mut leaves = [0; LANES];
         for (l, left) in leaves.iter_mut().enumerate() {
             if on(&moved, l) {
                 let d = Vec3::new(p.dx[l], p.dy[l], p.dz[l]);
-                match self.intersect_after(&memo.hit[l], d) {
+                let origin = Vec3::new(o[0][l], o[1][l], o[2][l]);
+                match self.intersect_off(origin, d, memo.hit[l].facet) {
                     Some(hit) => memo.hit[l] = hit,
                     None => *left = u64::MAX,
                 }
