@@ -1,7 +1,7 @@
 //! Rounding-error-aware origin offsets for rays leaving a facet.
 
 use super::Vec3;
-use super::lanes::{F, lanes};
+use super::lanes::{F, LANES, lanes};
 
 /// Start point for a ray leaving a facet: `p` moved along the normal `n` past its error box
 /// `p_err`, to the side `dir` points to, then one ulp further per coordinate
@@ -32,11 +32,15 @@ pub fn offset_origin_lanes(p: &[F; 3], p_err: &[F; 3], n: &[F; 3], dir: &[F; 3])
     });
     let dot = lanes(|l| (dir[0][l] * n[0][l] + dir[1][l] * n[1][l]) + dir[2][l] * n[2][l]);
     let sign = lanes(|l| if dot[l] < 0.0 { -1.0 } else { 1.0 });
-    std::array::from_fn(|c| {
-        // (−(n·d) and (−1)·(n·d) are the same bits)
-        let offset = lanes(|l| sign[l] * (n[c][l] * d[l]));
-        lanes(|l| ulp_step(p[c][l] + offset[l], offset[l]))
-    })
+    let mut o = [[0.0; LANES]; 3];
+    for c in 0..3 {
+        for l in 0..LANES {
+            // (−(n·d) and (−1)·(n·d) are the same bits)
+            let offset = sign[l] * (n[c][l] * d[l]);
+            o[c][l] = ulp_step(p[c][l] + offset, offset);
+        }
+    }
+    o
 }
 
 /// `v` moved one ulp towards +∞ if `o` > 0, towards −∞ if `o` < 0, else `v` itself: for

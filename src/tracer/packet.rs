@@ -201,9 +201,13 @@ impl LaneTexture for RandomPyramids {
     fn leaves_lanes(&self, p: &Packet, moved: M, memo: &mut HitMemo) -> M {
         // The start points of `intersect_after`, over the lanes.
         let h = &memo.hit;
-        let point = [0, 1, 2].map(|c| lanes(|l| h[l].point[c]));
-        let err = [0, 1, 2].map(|c| lanes(|l| h[l].p_err[c]));
-        let normal = [0, 1, 2].map(|c| lanes(|l| h[l].normal[c]));
+        let (mut point, mut err, mut normal) =
+            ([[0.0; LANES]; 3], [[0.0; LANES]; 3], [[0.0; LANES]; 3]);
+        for (l, h) in h.iter().enumerate() {
+            for c in 0..3 {
+                (point[c][l], err[c][l], normal[c][l]) = (h.point[c], h.p_err[c], h.normal[c]);
+            }
+        }
         let o = offset_origin_lanes(&point, &err, &normal, &[p.dx, p.dy, p.dz]);
         let mut leaves = [0; LANES];
         for (l, left) in leaves.iter_mut().enumerate() {

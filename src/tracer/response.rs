@@ -264,7 +264,7 @@ impl FacetResponse for CoatedInterface {
         self.n_layers
     }
 
-    #[inline]
+    #[inline(always)]
     fn sample(&self, side: Side, cos_theta: f64, cos_tilt: f64, out: &mut FacetSample) {
         let n = self.n_layers;
         let (a_s, a_p) = (&mut out.a_s[..n], &mut out.a_p[..n]);
