@@ -424,13 +424,13 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
         let limited = and(crossing, mask(|l| fl.events[l] > max_events[l]));
         let crossing = and_not(crossing, limited);
         let u = lane_rng.uniform();
-        let n = tex.normal_lanes(&found, &memo);
+        let n = || tex.normal_lanes(&found, &memo);
         let (lost, spent) = match bare {
-            Some(bare) => bare_events(&n, bare, ratios, &mut fl, &found, crossing, &u),
+            Some(bare) => bare_events(&n(), bare, ratios, &mut fl, &found, crossing, &u),
             None => sampled_events(
                 surface,
                 ratios,
-                &n,
+                &n(),
                 response,
                 &mut samples,
                 &mut fl,
