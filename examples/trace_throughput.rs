@@ -2,7 +2,8 @@
 //! and, under `valgrind --tool=callgrind`, instruction counts per facet event that do not
 //! depend on how busy the machine is.
 //!
-//! `cargo run --release --example trace_throughput -- CASE RAYS` with CASE one of
+//! `cargo run --release --example trace_throughput -- CASE RAYS [THETA_DEG]` (incidence
+//! from above at polar angle THETA_DEG, default 0: normal incidence) with CASE one of
 //! `pyramids-bare` (regular {111} pyramids, bare Si, unpolarised), `pyramids-coated`
 //! (75 nm SiNx table, Stokes), `random-coated` (random pyramids, 3 µm mean height, SiNx,
 //! Stokes: the front surface of the demo).
@@ -67,8 +68,12 @@ fn main() -> ExitCode {
         n_below: N_SI,
         polarisation: mode,
     };
+    let Some(theta_deg) = args.get(3).map_or(Some(0.0), |s| s.parse::<f64>().ok()) else {
+        eprintln!("error: THETA_DEG must be a number of degrees, e.g. 30");
+        return ExitCode::FAILURE;
+    };
     let inc = Incidence::Above {
-        theta: 0.0,
+        theta: theta_deg.to_radians(),
         phi: 0.0,
         polarisation: InputPolarisation::Unpolarised,
     };
