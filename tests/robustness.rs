@@ -625,9 +625,10 @@ fn height_map_edges_and_vertices_are_watertight() {
 #[test]
 #[ignore = "slow: 10^7 rays"]
 fn packet_tracer_loses_no_ray_in_10_million() {
-    // Upright regular pyramids are traced in ray packets (tracer::packet): whole paths, from
-    // both sides, at normal and grazing incidence, on touching, gapped, rotated and shallow
-    // pyramids; every ray must end booked (no numerical loss) and energy must balance.
+    // Upright regular and random pyramids are traced in ray packets (tracer::packet): whole
+    // paths, from both sides, at normal and grazing incidence, on touching, gapped, rotated
+    // and shallow regular pyramids and on random tiles (with and without an angle spread
+    // and flat gaps); every ray must end booked (no numerical loss) and energy must balance.
     use lightfold::tracer::{
         BareInterface, Incidence, InputPolarisation, PolarisationMode, Surface,
     };
@@ -660,19 +661,34 @@ fn packet_tracer_loses_no_ray_in_10_million() {
         },
         Incidence::BelowIsotropic,
     ];
+    let mut textures: Vec<Box<dyn Texture>> = specs
+        .into_iter()
+        .map(|spec| Box::new(RegularPyramids::new(spec).unwrap()) as Box<dyn Texture>)
+        .collect();
+    textures.push(Box::new(
+        RandomPyramids::new(RandomPyramidsSpec::log_normal_height(3.0, 0.35, 1)).unwrap(),
+    ));
+    textures.push(Box::new(
+        RandomPyramids::new(RandomPyramidsSpec {
+            angle_spread_deg: 2.0,
+            coverage_target: 0.8,
+            ..RandomPyramidsSpec::log_normal_height(1.0, 0.3, 2)
+        })
+        .unwrap(),
+    ));
     let mut total = 0;
-    for (n, spec) in specs.into_iter().enumerate() {
-        let tex = RegularPyramids::new(spec).unwrap();
+    for (n, tex) in textures.iter().enumerate() {
+        let tex = &**tex;
         for (m, inc) in incidences.iter().enumerate() {
             for mode in [PolarisationMode::Unpolarised, PolarisationMode::Stokes] {
                 let surf = Surface {
-                    texture: &tex,
+                    texture: tex,
                     response: &bare,
                     n_above: 1.0,
                     n_below: 3.6,
                     polarisation: mode,
                 };
-                let (tally, ()) = surf.trace(inc, 560_000, 31, (10 * n + m) as u64);
+                let (tally, ()) = surf.trace(inc, 340_000, 31, (10 * n + m) as u64);
                 assert_eq!(tally.lost_rays, 0, "spec {n}, incidence {m}, {mode:?}");
                 assert!(tally.energy_error() < 1e-9, "spec {n}, incidence {m}");
                 total += tally.rays;
