@@ -663,6 +663,11 @@ impl RandomPyramids {
         self.tile
     }
 
+    /// The largest coordinate below the tile side, µm (hit points lie in [0, this]).
+    pub fn tile_below_um(&self) -> f64 {
+        self.tile_below
+    }
+
     /// All generated pyramids (including those buried inside others).
     pub fn pyramids(&self) -> &[Pyramid] {
         &self.pyramids
@@ -1460,7 +1465,7 @@ impl RandomPyramids {
             let items = &self.vertical_cell(o).1.items;
             if let Some(first) = items.first() {
                 prefetch(first);
-                // the item's second cache line (items are 80 bytes)
+                // and its last field: an 80-byte item straddles two cache lines (or three)
                 prefetch(first.w.as_ptr().wrapping_add(3));
             }
         }

@@ -1,13 +1,16 @@
-//! The surface tracer for regular upright pyramids with [`LANES`] rays in flight at once.
+//! The surface tracer with [`LANES`] rays in flight at once, for the textures that implement
+//! [`LaneTexture`]: upright regular pyramids (lane-wise queries) and random pyramids (the
+//! texture's one-ray query lane by lane).
 //!
 //! Same physics and bookkeeping as [`Surface::trace_chunk`] one ray at a time; only the order
 //! of work differs. Every round asks the texture for the next crossing of all lanes together
-//! ([`RegularPyramids::cross_packet`], laid out for SIMD), hands lanes it cannot decide to
-//! the robust one-ray walk, applies the facet event of every lane that crossed (the
+//! ([`LaneTexture::cross_lanes`]; for regular pyramids [`RegularPyramids::cross_packet`],
+//! laid out for SIMD, with the lanes it cannot decide handed to the robust one-ray walk),
+//! applies the facet event of every lane that crossed (the
 //! formulas of [`Surface::facet_event`] over the lanes: entirely for bare facets with
 //! unpolarised light, [`bare_events`]; with the response's sample taken lane by lane
 //! otherwise, [`sampled_events`]), asks at once which rays are certain to leave at their
-//! next query ([`RegularPyramids::leaves_packet`]: a ray refracted into the wafer ends in
+//! next query ([`LaneTexture::leaves_lanes`]: a ray refracted into the wafer ends in
 //! the round of its last event, not one round later), and refills the lane of a finished
 //! ray with the next ray of the chunk — for rays of a fixed direction without a branch per
 //! lane ([`Ends`], [`Refill`], [`LaneSums`]). Lanes keep their rays in the texture's lattice
@@ -27,7 +30,7 @@ use super::surface::{
 use super::tally::{HIT_BINS, Moments, Tally, polar_bin};
 use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
 use crate::geometry::robust::offset_origin_lanes;
-use crate::geometry::{Hit, Vec3, greater, lesser};
+use crate::geometry::{FacetId, Hit, Vec3, greater, lesser};
 use crate::sampling::{LaneStreams, Stream};
 use crate::texture::pyramids::{Crossings, NO_FACET, Packet};
 use crate::texture::{RandomPyramids, RegularPyramids, Texture};
@@ -90,13 +93,13 @@ pub(super) trait LaneTexture: Texture {
     /// Up normals (lattice frame) of the facets `found` crossed.
     fn normal_lanes(&self, found: &Crossings, memo: &Self::Memo) -> [F; 3];
     /// Lab-frame vector → lattice frame.
-    fn lab_to_lattice(&self, v: Vec3) -> Vec3;
+    fn to_lattice(&self, v: Vec3) -> Vec3;
     /// Lattice-frame vector → lab frame.
-    fn lattice_to_lab_frame(&self, v: Vec3) -> Vec3;
+    fn lattice_to_lab(&self, v: Vec3) -> Vec3;
     /// A lab-frame point of the unit cell in lattice coordinates, inside [0, p)².
-    fn lattice_home(&self, lab: Vec3) -> Vec3;
+    fn home(&self, lab: Vec3) -> Vec3;
     /// The last coordinate below the period (the far edge of the unit cell), µm.
-    fn cell_edge(&self) -> f64;
+    fn period_below(&self) -> f64;
 }
 
 impl LaneTexture for RegularPyramids {
@@ -133,24 +136,25 @@ impl LaneTexture for RegularPyramids {
         self.lattice_normal_lanes(&found.face)
     }
 
+    // (The inherent methods of the same names.)
     #[inline(always)]
-    fn lab_to_lattice(&self, v: Vec3) -> Vec3 {
-        self.to_lattice(v)
+    fn to_lattice(&self, v: Vec3) -> Vec3 {
+        RegularPyramids::to_lattice(self, v)
     }
 
     #[inline(always)]
-    fn lattice_to_lab_frame(&self, v: Vec3) -> Vec3 {
-        self.lattice_to_lab(v)
+    fn lattice_to_lab(&self, v: Vec3) -> Vec3 {
+        RegularPyramids::lattice_to_lab(self, v)
     }
 
     #[inline(always)]
-    fn lattice_home(&self, lab: Vec3) -> Vec3 {
-        self.home(lab)
+    fn home(&self, lab: Vec3) -> Vec3 {
+        RegularPyramids::home(self, lab)
     }
 
     #[inline(always)]
-    fn cell_edge(&self) -> f64 {
-        self.period_below()
+    fn period_below(&self) -> f64 {
+        RegularPyramids::period_below(self)
     }
 }
 
@@ -234,24 +238,23 @@ impl LaneTexture for RandomPyramids {
     }
 
     #[inline(always)]
-    fn lab_to_lattice(&self, v: Vec3) -> Vec3 {
+    fn to_lattice(&self, v: Vec3) -> Vec3 {
         v
     }
 
     #[inline(always)]
-    fn lattice_to_lab_frame(&self, v: Vec3) -> Vec3 {
+    fn lattice_to_lab(&self, v: Vec3) -> Vec3 {
         v
     }
 
     #[inline(always)]
-    fn lattice_home(&self, lab: Vec3) -> Vec3 {
+    fn home(&self, lab: Vec3) -> Vec3 {
         lab
     }
 
     #[inline(always)]
-    fn cell_edge(&self) -> f64 {
-        let tile = self.tile_um();
-        f64::from_bits(tile.to_bits() - 1)
+    fn period_below(&self) -> f64 {
+        self.tile_below_um()
     }
 }
 
@@ -268,13 +271,13 @@ impl Default for HitMemo {
             point: Vec3::ZERO,
             p_err: Vec3::ZERO,
             normal: Vec3::Z,
-            facet: crate::geometry::FacetId(NO_FACET),
+            facet: FacetId(NO_FACET),
         };
         HitMemo { hit: [hit; LANES] }
     }
 }
 
-/// [`Surface::trace_chunk`] for upright regular pyramids (see the module doc), compiled for
+/// [`Surface::trace_chunk`] for a texture with a lane path (see the module doc), compiled for
 /// AVX2 where the processor has it. (No FMA: the results are the same bits either way.)
 pub(super) fn trace_chunk<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     surface: &Surface,
@@ -343,8 +346,8 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     // coordinates (u·p, v·p): the same distribution as `Launcher::ray`, without rotations.
     let (fixed, z_entry) = launcher.fixed();
     let fixed = fixed.map(|(dir, pol)| {
-        let e1 = tex.lab_to_lattice(pol.e1);
-        (dir, tex.lab_to_lattice(dir), Polarised { s: pol.s, e1 })
+        let e1 = tex.to_lattice(pol.e1);
+        (dir, tex.to_lattice(dir), Polarised { s: pol.s, e1 })
     });
     // Where rays of a fixed direction start, and the medium every ray starts in.
     let below_in = side_mask(side_in);
@@ -354,7 +357,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
         pol,
         below: below_in,
         period: tex.period_um()[0],
-        edge: tex.cell_edge(),
+        edge: tex.period_below(),
     });
     // Index ratios n₁/n₂ for refraction from above and from below.
     let ratios = (
@@ -380,14 +383,9 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
             }
             _ => {
                 let ray = launcher.ray(rng);
-                let e1 = tex.lab_to_lattice(ray.pol.e1);
+                let e1 = tex.to_lattice(ray.pol.e1);
                 let pol = Polarised { s: ray.pol.s, e1 };
-                (
-                    ray.dir,
-                    tex.lattice_home(ray.origin),
-                    tex.lab_to_lattice(ray.dir),
-                    pol,
-                )
+                (ray.dir, tex.home(ray.origin), tex.to_lattice(ray.dir), pol)
             }
         };
         fl.packet.set(l, o, d, NO_FACET);
@@ -477,7 +475,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
                 &mut obs,
                 side_in,
                 fl.start[l],
-                tex.lattice_to_lab_frame(dir),
+                tex.lattice_to_lab(dir),
                 fl.stokes[0][l],
                 outcome,
                 fl.events[l] as u32,

@@ -611,7 +611,7 @@ impl<'a> Surface<'a> {
         self.trace_chunks(incidence, chunks, n_rays, (seed, job_key), true)
     }
 
-    /// [`Self::trace`] without the packet tracer of upright regular pyramids
+    /// [`Self::trace`] without the packet tracer of upright regular and random pyramids
     /// (`tracer::packet`): every ray followed on its own, seeded alike (the random numbers
     /// are drawn differently, so results agree statistically). For comparisons and
     /// benchmarks.
