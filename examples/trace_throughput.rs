@@ -1,9 +1,10 @@
-//! Surface-tracer throughput on one thread, for the `scripts/bench` recipe: wall-clock rates
+//! Surface-tracer throughput (one thread unless asked), for the `scripts/bench` recipe: wall-clock rates
 //! and, under `valgrind --tool=callgrind`, instruction counts per facet event that do not
 //! depend on how busy the machine is.
 //!
-//! `cargo run --release --example trace_throughput -- CASE RAYS [THETA_DEG]` (incidence
-//! from above at polar angle THETA_DEG, default 0: normal incidence) with CASE one of
+//! `cargo run --release --example trace_throughput -- CASE RAYS [THETA_DEG [THREADS]]`
+//! (incidence from above at polar angle THETA_DEG, default 0: normal incidence; THREADS
+//! worker threads, default 1) with CASE one of
 //! `pyramids-bare` (regular {111} pyramids, bare Si, unpolarised), `pyramids-coated`
 //! (75 nm SiNx table, Stokes), `random-coated` (random pyramids, 3 µm mean height, SiNx,
 //! Stokes: the front surface of the demo).
@@ -77,8 +78,12 @@ fn main() -> ExitCode {
         phi: 0.0,
         polarisation: InputPolarisation::Unpolarised,
     };
+    let Some(threads) = args.get(4).map_or(Some(1), |s| s.parse::<usize>().ok()) else {
+        eprintln!("error: THREADS must be a whole number, e.g. 2");
+        return ExitCode::FAILURE;
+    };
     let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(1)
+        .num_threads(threads)
         .build()
         .expect("thread pool");
     let start = std::time::Instant::now();
