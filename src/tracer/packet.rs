@@ -47,7 +47,7 @@ struct Flight {
     below: M,
     events: F,
     film: [F; MAX_FILM_LAYERS],
-    active: [bool; LANES],
+    active: M,
     start: [Vec3; LANES],
 }
 
@@ -61,7 +61,7 @@ impl Flight {
             below: [0; LANES],
             events: [0.0; LANES],
             film: [[0.0; LANES]; MAX_FILM_LAYERS],
-            active: [false; LANES],
+            active: [0; LANES],
             start: [Vec3::Z; LANES],
         }
     }
@@ -372,7 +372,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     // Starts the next ray of the chunk in lane `l`, or retires the lane.
     let launch = |fl: &mut Flight, l: usize, launched: &mut u64, rng: &mut Stream| {
         if *launched == rays {
-            fl.active[l] = false;
+            fl.active[l] = 0;
             return;
         }
         *launched += 1;
@@ -400,7 +400,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
         for layer in &mut fl.film[..n_layers] {
             layer[l] = 0.0;
         }
-        fl.active[l] = true;
+        fl.active[l] = u64::MAX;
         fl.start[l] = start_dir;
     };
     for l in 0..LANES {
@@ -413,8 +413,8 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     let mut sums = LaneSums::default();
     let max_events = [f64::from(MAX_EVENTS); LANES];
     let mut film = [0.0; MAX_FILM_LAYERS];
-    while fl.active.contains(&true) {
-        let active = mask(|l| fl.active[l]);
+    while any(&fl.active) {
+        let active = fl.active;
         let found = tex.cross_lanes(&fl.packet, active, &mut memo);
         // Facet events of the lanes that cross, unless past the event limit.
         let crossing = and(active, found.crosses);
