@@ -332,7 +332,7 @@ fn row_blocks_generic(
     }
 }
 
-/// Register tile: acc[r][j] = Σ_p A[start + r·lda + p] · bp[p·NR + j], p < kc.
+/// Register tile: `acc[r][j] = Σ_p A[start + r·lda + p] · bp[p·NR + j]`, p < kc.
 #[inline(always)]
 fn tile<const R: usize>(
     kc: usize,

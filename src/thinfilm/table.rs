@@ -150,7 +150,7 @@ impl FullSample {
     }
 }
 
-/// Cubic coefficients [power][channel] of four channels on one cell (R_s, R_p, T_s, T_p,
+/// Cubic coefficients `[power][channel]` of four channels on one cell (R_s, R_p, T_s, T_p,
 /// or Re ρ, Im ρ, Re τ, Im τ): one record of two cache lines.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 #[repr(C, align(64))]

@@ -3,7 +3,7 @@
 //! A [`Material`] is a named dispersion model ([`Dispersion`]) with a citation and an explicit
 //! validity range; [`Material::index_at`] never extrapolates. Sources of materials:
 //!
-//! * the built-in [`library`] (`data/nk/*.csv` embedded in the binary, citations in
+//! * the built-in [`library()`] (`data/nk/*.csv` embedded in the binary, citations in
 //!   `data/nk/SOURCES.md`), looked up with [`by_id`];
 //! * a user's CSV file (`wavelength_nm,n,k`, see [`Material::from_csv_file`]);
 //! * a literal constant index such as `2.05+0.001i`.

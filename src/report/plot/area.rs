@@ -111,7 +111,7 @@ impl StackedArea {
             .unwrap_or_else(|| Color::rgb(0x22, 0x22, 0x22).lerp(palette(i + 1), 0.3 * i as f64))
     }
 
-    /// Cumulative sums: `cum[k][i]` is the top of layer k at x[i].
+    /// Cumulative sums: `cum[k][i]` is the top of layer k at `x[i]`.
     fn cumulative(&self) -> Vec<Vec<f64>> {
         let n = self.x.len();
         let mut acc = vec![0.0; n];
