@@ -4,7 +4,8 @@
 //!
 //! `cargo run --release --example trace_throughput -- CASE RAYS [THETA_DEG [THREADS]]`
 //! (incidence from above at polar angle THETA_DEG, default 0: normal incidence; THREADS
-//! worker threads, default 1) with CASE one of
+//! worker threads, default 1; the one-ray tracer instead of ray packets if the environment
+//! variable `LIGHTFOLD_ONE_RAY` is set) with CASE one of
 //! `pyramids-bare` (regular {111} pyramids, bare Si, unpolarised), `pyramids-coated`
 //! (75 nm SiNx table, Stokes), `random-coated` (random pyramids, 3 µm mean height, SiNx,
 //! Stokes: the front surface of the demo).
@@ -87,7 +88,16 @@ fn main() -> ExitCode {
         .build()
         .expect("thread pool");
     let start = std::time::Instant::now();
-    let (tally, ()) = pool.install(|| surface.trace::<()>(&inc, rays, 7, 0));
+    // LIGHTFOLD_ONE_RAY=1: the one-ray tracer (`Surface::trace_one_at_a_time`), the
+    // reference that criterion's runs compare the packet tracer with.
+    let one_ray = std::env::var_os("LIGHTFOLD_ONE_RAY").is_some();
+    let (tally, ()) = pool.install(|| {
+        if one_ray {
+            surface.trace_one_at_a_time::<()>(&inc, rays, 7, 0)
+        } else {
+            surface.trace::<()>(&inc, rays, 7, 0)
+        }
+    });
     let secs = start.elapsed().as_secs_f64();
     let events: f64 = tally
         .hits
