@@ -870,7 +870,8 @@ impl Default for Packet {
     }
 }
 
-/// Answers of [`RegularPyramids::cross_packet`], per lane: whether the ray crosses the
+/// Answers of a packet query ([`RegularPyramids::cross_packet`], or a texture's
+/// `LaneTexture::cross_lanes` in the packet tracer), per lane: whether the ray crosses the
 /// surface (then where, in the lattice frame, wrapped into the unit cell and snapped onto
 /// the facet's plane, and on which facet) or leaves the slab first. A lane with neither
 /// flag was too close to an edge, wall or plane to decide there: [`Texture::intersect`] or
@@ -884,21 +885,6 @@ pub struct Crossings {
     pub x: [f64; LANES],
     pub y: [f64; LANES],
     pub z: [f64; LANES],
-}
-
-impl Crossings {
-    /// No lane decided yet.
-    #[inline(always)]
-    pub fn none() -> Crossings {
-        Crossings {
-            crosses: [0; LANES],
-            leaves: [0; LANES],
-            face: [0.0; LANES],
-            x: [0.0; LANES],
-            y: [0.0; LANES],
-            z: [0.0; LANES],
-        }
-    }
 }
 
 impl RegularPyramids {

@@ -179,25 +179,26 @@ impl LaneTexture for RandomPyramids {
                 self.prefetch_launch(o, Vec3::new(p.dx[l], p.dy[l], p.dz[l]));
             }
         }
-        let mut found = Crossings::none();
-        for l in 0..LANES {
+        let mut leaves = [0; LANES];
+        for (l, left) in leaves.iter_mut().enumerate() {
             if on(&fresh, l) {
                 let o = Vec3::new(p.ox[l], p.oy[l], p.oz[l]);
                 match self.intersect_entering(o, Vec3::new(p.dx[l], p.dy[l], p.dz[l])) {
                     Some(hit) => memo.hit[l] = hit,
-                    None => found.leaves[l] = u64::MAX,
+                    None => *left = u64::MAX,
                 }
             }
             // (other active lanes cross where `leaves_lanes` found after their last event)
         }
-        let crosses = and_not(active, found.leaves);
         let h = &memo.hit;
-        found.crosses = crosses;
-        found.face = lanes(|l| f64::from(h[l].facet.0));
-        found.x = lanes(|l| h[l].point.x);
-        found.y = lanes(|l| h[l].point.y);
-        found.z = lanes(|l| h[l].point.z);
-        found
+        Crossings {
+            crosses: and_not(active, leaves),
+            leaves,
+            face: lanes(|l| f64::from(h[l].facet.0)),
+            x: lanes(|l| h[l].point.x),
+            y: lanes(|l| h[l].point.y),
+            z: lanes(|l| h[l].point.z),
+        }
     }
 
     /// The next crossing of each `moved` lane, kept in `memo` for the next round.
