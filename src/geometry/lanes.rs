@@ -62,6 +62,12 @@ pub fn any(m: &M) -> bool {
     m.iter().fold(0, |a, &b| a | b) != 0
 }
 
+/// Whether every lane of `m` is set.
+#[inline(always)]
+pub fn every(m: &M) -> bool {
+    m.iter().fold(u64::MAX, |a, &b| a & b) != 0
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -79,6 +85,7 @@ mod tests {
         assert_eq!(and_not(m, odd), [0, 0, u64::MAX, 0]);
         assert!(on(&m, 2) && !on(&m, 1));
         assert!(any(&odd) && !any(&mask(|_| false)));
+        assert!(every(&mask(|_| true)) && !every(&odd) && !every(&m));
         // Selection keeps every bit, signed zeros and infinities included.
         let z = pick(mask(|l| l == 0), [-0.0, 0.0, 0.0, 0.0], [f64::INFINITY; 4]);
         assert!(z[0].is_sign_negative() && z[0] == 0.0 && z[1].is_infinite());

@@ -22,7 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, or, pick};
+use crate::geometry::lanes::{F, LANES, M, and, and_not, any, every, lanes, mask, or, pick};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
@@ -1054,6 +1054,48 @@ impl RegularPyramids {
         }
     }
 
+    /// The crossings of a packet whose every lane holds a ray straight down from above the
+    /// slab onto touching upright pyramids (as rays at normal incidence start), without the
+    /// cone: the surface over the unit cell is its pyramid, so each ray meets it at its own
+    /// (x, y), on the facet and at the height of [`Self::surface`] there (the lowest face
+    /// plane, the first in face order on a ridge, the ground where none is above it: the
+    /// cell's edge). Where [`Self::cross_packet`] decides such a lane, the same facet and
+    /// crossing point, bit for bit; it also decides the lanes that the cone leaves to the
+    /// robust walk (within its margin of a ridge or valley), where facets meet and which of
+    /// them a ray lands on does not matter beyond rounding. `None` unless every lane holds
+    /// such a ray.
+    #[inline(always)]
+    pub fn vertical_packet(&self, p: &Packet) -> Option<Crossings> {
+        let z_hi = self.z_range_um()[1] + self.pad;
+        let straight_down = and(
+            and(mask(|l| p.dx[l] == 0.0), mask(|l| p.dy[l] == 0.0)),
+            and(mask(|l| p.dz[l] < 0.0), mask(|l| p.oz[l] > z_hi)),
+        );
+        let fresh = mask(|l| p.skip[l] == f64::from(NO_FACET));
+        if !self.touching || !every(&and(straight_down, fresh)) {
+            return None;
+        }
+        let z: [F; 4] = std::array::from_fn(|f| {
+            let plane = &self.planes[f];
+            lanes(|l| plane.z_at(p.ox[l], p.oy[l]))
+        });
+        let (mut lowest, mut face) = (z[0], [0.0; LANES]);
+        for (f, zf) in z.iter().enumerate().skip(1) {
+            let lower = mask(|l| zf[l] < lowest[l]);
+            lowest = pick(lower, *zf, lowest);
+            face = pick(lower, [f as f64; LANES], face);
+        }
+        let ground = mask(|l| lowest[l] <= 0.0);
+        Some(Crossings {
+            crosses: [u64::MAX; LANES],
+            leaves: [0; LANES],
+            face: pick(ground, [f64::from(FLAT_FACET); LANES], face),
+            x: p.ox,
+            y: p.oy,
+            z: pick(ground, [0.0; LANES], lowest),
+        })
+    }
+
     /// Lanes certain to leave the slab without meeting the surface again, each decided
     /// clearly by the margin: rays into the pyramid of the facet they left that pass below
     /// the ground before any other face plane (case B of [`Self::cross_packet`], the same
@@ -1704,6 +1746,82 @@ mod tests {
     /// almost everywhere: rays from above and below at random angles, and rays leaving each
     /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
     /// lattices.
+    #[test]
+    fn vertical_packets_land_where_the_surface_is() {
+        // vertical_packet must give Self::surface's facet and height at every start point
+        // (bit for bit: the same planes in the same order), ridges, valleys and the cell's
+        // edges included, cross_packet's crossing wherever the cone decides, and nothing
+        // unless every lane is a vertical ray from above onto touching upright pyramids.
+        use crate::sampling::Stream;
+        for spec in [
+            RegularPyramidsSpec::upright(5.0),
+            RegularPyramidsSpec {
+                base_angle_deg: 40.0,
+                ..RegularPyramidsSpec::upright(3.0)
+            },
+        ] {
+            let tex = RegularPyramids::new(spec).unwrap();
+            let (p, c) = (tex.period, tex.centre);
+            let top = tex.z_range_um()[1] + 0.1;
+            let mut rng = Stream::new(5, 1, 0);
+            let mut decided = 0;
+            for k in 0..20_000 {
+                let mut packet = Packet::default();
+                for l in 0..LANES {
+                    let (u, v) = (rng.uniform() * p, rng.uniform() * p);
+                    // every fourth lane on a ridge, a valley, the edge or the apex
+                    let (x, y) = match (k + l) % 16 {
+                        0 => (u, u),
+                        1 => (u, p - u),
+                        2 => (0.0, v),
+                        3 => (u, tex.period_below),
+                        4 => (c, c),
+                        _ => (u, v),
+                    };
+                    packet.set(l, Vec3::new(x, y, top), Vec3::NEG_Z, NO_FACET);
+                }
+                let got = tex.vertical_packet(&packet).unwrap();
+                let cone = tex.cross_packet(&packet);
+                for l in 0..LANES {
+                    let (z, face) = tex.surface(packet.ox[l], packet.oy[l]);
+                    assert!(got.crosses[l] != 0 && got.leaves[l] == 0);
+                    assert_eq!(got.face[l], face as f64);
+                    assert_eq!(
+                        (got.x[l], got.y[l], got.z[l].to_bits()),
+                        (packet.ox[l], packet.oy[l], z.to_bits())
+                    );
+                    if cone.crosses[l] != 0 {
+                        decided += 1;
+                        assert_eq!(
+                            (cone.face[l], cone.x[l], cone.y[l], cone.z[l].to_bits()),
+                            (got.face[l], got.x[l], got.y[l], got.z[l].to_bits())
+                        );
+                    }
+                }
+                // One lane not vertical, not fresh or not above the slab: no shortcut.
+                let l = k % LANES;
+                let mut other = packet;
+                match k % 3 {
+                    0 => other.dx[l] = 1e-9,
+                    1 => other.skip[l] = 0.0,
+                    _ => other.oz[l] = 0.5 * top,
+                }
+                assert!(tex.vertical_packet(&other).is_none());
+            }
+            assert!(decided > 50_000, "{decided}");
+            let gapped = RegularPyramids::new(RegularPyramidsSpec {
+                period_um: 7.0,
+                ..spec
+            })
+            .unwrap();
+            let mut packet = Packet::default();
+            for l in 0..LANES {
+                packet.set(l, Vec3::new(1.0, 2.0, top), Vec3::NEG_Z, NO_FACET);
+            }
+            assert!(gapped.vertical_packet(&packet).is_none());
+        }
+    }
+
     #[test]
     fn packet_crossings_equal_the_cone_shortcut_lane_by_lane() {
         // cross_packet is convex_crossing rewritten over lanes: every lane must give the

@@ -113,6 +113,9 @@ impl LaneTexture for RegularPyramids {
     /// robust one-ray walk.
     #[inline(always)]
     fn cross_lanes(&self, p: &Packet, active: M, _: &mut ()) -> Crossings {
+        if let Some(found) = self.vertical_packet(p) {
+            return found;
+        }
         let mut found = self.cross_packet(p);
         let undecided = and_not(and_not(active, found.crosses), found.leaves);
         if any(&undecided) {
@@ -335,9 +338,10 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     // (`response` is `surface.response` with its concrete type; the bare-facet path needs
     // to know whether that type is `BareInterface`.)
     let erased: &dyn Any = surface.response;
-    let bare = erased
-        .downcast_ref::<BareInterface>()
-        .filter(|_| surface.polarisation == PolarisationMode::Unpolarised);
+    let bare = erased.downcast_ref::<BareInterface>().filter(|b| {
+        surface.polarisation == PolarisationMode::Unpolarised
+            && (b.n_above, b.n_below) == (surface.n_above, surface.n_below)
+    });
     let mut tally = Tally::default();
     let mut obs = O::default();
     let n_layers = response.n_layers();
@@ -728,24 +732,20 @@ fn bare_events(
     u: &F,
 ) -> (M, M) {
     let hit = Meeting::new(n, fl);
-    let (below, cos_i) = (fl.below, hit.cos_i);
+    // (the surface's index ratios are the interface's, checked by the caller)
+    let snell = hit.snell(fl, ratios);
+    let (below, cos_i, cos_t) = (fl.below, hit.cos_i, snell.cos_t);
     let n1 = pick(below, [bare.n_below; LANES], [bare.n_above; LANES]);
     let n2 = pick(below, [bare.n_above; LANES], [bare.n_below; LANES]);
-    // fresnel_power, lane by lane (n1/n2 of the two sides computed once)
-    let (up, down) = (bare.n_above / bare.n_below, bare.n_below / bare.n_above);
-    let eta = pick(below, [down; LANES], [up; LANES]);
-    let sin2_t = lanes(|l| eta[l] * eta[l] * (1.0 - cos_i[l] * cos_i[l]));
-    let cos_t = lanes(|l| greater(1.0 - sin2_t[l], 0.0).sqrt());
-    let rs = lanes(|l| {
-        let (a, b) = (n1[l] * cos_i[l], n2[l] * cos_t[l]);
-        (a - b) / (a + b)
-    });
-    let rp = lanes(|l| {
-        let (c, d) = (n2[l] * cos_i[l], n1[l] * cos_t[l]);
-        (c - d) / (c + d)
-    });
+    // fresnel_power, lane by lane
+    let (a, b) = (lanes(|l| n1[l] * cos_i[l]), lanes(|l| n2[l] * cos_t[l]));
+    let (c, d) = (lanes(|l| n2[l] * cos_i[l]), lanes(|l| n1[l] * cos_t[l]));
+    let (ab, cd) = (lanes(|l| a[l] + b[l]), lanes(|l| c[l] + d[l]));
+    let inv = lanes(|l| 1.0 / (ab[l] * cd[l]));
+    let rs = lanes(|l| (a[l] - b[l]) * cd[l] * inv[l]);
+    let rp = lanes(|l| (c[l] - d[l]) * ab[l] * inv[l]);
     let (rs2, rp2) = (lanes(|l| rs[l] * rs[l]), lanes(|l| rp[l] * rp[l]));
-    let tir = mask(|l| sin2_t[l] >= 1.0);
+    let tir = mask(|l| snell.sin2_t[l] >= 1.0);
     let r = pick(tir, [1.0; LANES], lanes(|l| 0.5 * (rs2[l] + rp2[l])));
     let t = pick(
         tir,
@@ -755,7 +755,7 @@ fn bare_events(
     let total = lanes(|l| r[l] + t[l]);
     let reflect = mask(|l| u[l] * total[l] < r[l]);
     fl.renormalise_unpolarised(crossing, &total);
-    hit.turn(fl, found, crossing, reflect, ratios);
+    hit.turn(fl, found, crossing, reflect, &snell);
     (hit.lost, [0; LANES])
 }
 
@@ -839,7 +839,8 @@ fn sampled_events<R: FacetResponse + ?Sized>(
     }
     let reflect = mask(|l| u[l] * (p_r[l] + p_t[l]) < p_r[l]);
     let spent = mask(|l| p_r[l] + p_t[l] <= 0.0);
-    hit.turn(fl, found, and_not(crossing, spent), reflect, ratios);
+    let snell = hit.snell(fl, ratios);
+    hit.turn(fl, found, and_not(crossing, spent), reflect, &snell);
     (hit.lost, spent)
 }
 
@@ -877,13 +878,26 @@ impl Meeting {
         }
     }
 
-    /// Sends the `go` lanes on from their crossing points: reflected where `reflect`,
-    /// refracted elsewhere, into the other medium — the formulas of `surface::reflected` and
-    /// `surface::refracted`, lane by lane. `ratios` are the surface's n_above/n_below and
-    /// n_below/n_above (the index ratio for rays from above and from below).
+    /// Snell's law at the lanes' facets: the index ratio n₁/n₂ of each lane's side
+    /// (`ratios`: the surface's n_above/n_below and n_below/n_above), sin²θₜ and cos θₜ.
     #[inline(always)]
-    fn turn(&self, fl: &mut Flight, found: &Crossings, go: M, reflect: M, ratios: (f64, f64)) {
-        let eta = &pick(fl.below, [ratios.1; LANES], [ratios.0; LANES]);
+    fn snell(&self, fl: &Flight, ratios: (f64, f64)) -> Snell {
+        let eta = pick(fl.below, [ratios.1; LANES], [ratios.0; LANES]);
+        let cos_i = &self.cos_i;
+        let sin2_t = lanes(|l| eta[l] * eta[l] * (1.0 - cos_i[l] * cos_i[l]));
+        Snell {
+            eta,
+            sin2_t,
+            cos_t: lanes(|l| greater(1.0 - sin2_t[l], 0.0).sqrt()),
+        }
+    }
+
+    /// Sends the `go` lanes on from their crossing points: reflected where `reflect`,
+    /// refracted elsewhere (`snell`), into the other medium — the formulas of
+    /// `surface::reflected` and `surface::refracted`, lane by lane.
+    #[inline(always)]
+    fn turn(&self, fl: &mut Flight, found: &Crossings, go: M, reflect: M, snell: &Snell) {
+        let (eta, sin2_t, cos_t) = (&snell.eta, &snell.sin2_t, &snell.cos_t);
         let (n, kn, cos_i) = (&self.n, &self.k_dot_n, &self.cos_i);
         let p = &mut fl.packet;
         let k = [p.dx, p.dy, p.dz];
@@ -891,20 +905,19 @@ impl Meeting {
         let refl: [F; 3] = std::array::from_fn(|c| lanes(|l| k[c][l] - two_kn[l] * n[c][l]));
         let sign = pick(mask(|l| kn[l] < 0.0), [1.0; LANES], [-1.0; LANES]);
         let facing: [F; 3] = std::array::from_fn(|c| lanes(|l| sign[l] * n[c][l]));
-        let sin2_t = lanes(|l| eta[l] * eta[l] * (1.0 - cos_i[l] * cos_i[l]));
-        let cos_t = lanes(|l| greater(1.0 - sin2_t[l], 0.0).sqrt());
         let along = lanes(|l| eta[l] * cos_i[l] - cos_t[l]);
         let raw: [F; 3] =
             std::array::from_fn(|c| lanes(|l| eta[l] * k[c][l] + along[l] * facing[c][l]));
-        let inv_len = lanes(|l| {
-            1.0 / ((raw[0][l] * raw[0][l] + raw[1][l] * raw[1][l]) + raw[2][l] * raw[2][l]).sqrt()
+        // (`surface::unit_again`)
+        let again = lanes(|l| {
+            1.5 - 0.5 * ((raw[0][l] * raw[0][l] + raw[1][l] * raw[1][l]) + raw[2][l] * raw[2][l])
         });
         let no_angle = mask(|l| sin2_t[l] >= 1.0);
         let refr: [F; 3] = std::array::from_fn(|c| {
             pick(
                 no_angle,
                 lanes(|l| -facing[c][l]),
-                lanes(|l| raw[c][l] * inv_len[l]),
+                lanes(|l| raw[c][l] * again[l]),
             )
         });
         let dir: [F; 3] = std::array::from_fn(|c| pick(reflect, refl[c], refr[c]));
@@ -917,6 +930,13 @@ impl Meeting {
         p.dz = pick(go, dir[2], p.dz);
         p.skip = pick(go, found.face, p.skip);
     }
+}
+
+/// Snell's law over the lanes ([`Meeting::snell`]).
+struct Snell {
+    eta: F,
+    sin2_t: F,
+    cos_t: F,
 }
 
 /// The robust one-ray walk for lane `l`, written into `found`: its next crossing (lattice

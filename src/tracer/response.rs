@@ -144,9 +144,12 @@ pub fn fresnel_power(n1: f64, n2: f64, cos_theta: f64) -> [f64; 4] {
     let sin2_t = (n1 / n2).powi(2) * (1.0 - cos_theta * cos_theta);
     let cos_t = greater(1.0 - sin2_t, 0.0).sqrt();
     let (a, b) = (n1 * cos_theta, n2 * cos_t);
-    let rs = (a - b) / (a + b);
     let (c, d) = (n2 * cos_theta, n1 * cos_t);
-    let rp = (c - d) / (c + d);
+    // r_s = (a − b)/(a + b), r_p = (c − d)/(c + d), over one division.
+    let (ab, cd) = (a + b, c + d);
+    let inv = 1.0 / (ab * cd);
+    let rs = (a - b) * cd * inv;
+    let rp = (c - d) * ab * inv;
     let (rs2, rp2) = (rs * rs, rp * rp);
     if sin2_t >= 1.0 {
         [1.0, 1.0, 0.0, 0.0] // total internal reflection
