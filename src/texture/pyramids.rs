@@ -22,7 +22,7 @@ use super::{
 };
 use crate::geometry::crossing::{Entry, Gap, HeightPlane, Span, SquareFaces};
 use crate::geometry::grid::GridWalk;
-use crate::geometry::lanes::{F, LANES, M, and, and_not, any, every, lanes, mask, or, pick};
+use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, or, pick};
 use crate::geometry::robust::offset_origin;
 use crate::geometry::{FacetId, Hit, Vec3, floor_i64, gamma, greater, lesser};
 use crate::texture::{PROBE_REL, on_plane_tol};
@@ -1054,27 +1054,33 @@ impl RegularPyramids {
         }
     }
 
-    /// The crossings of a packet whose every lane holds a ray straight down from above the
-    /// slab onto touching upright pyramids (as rays at normal incidence start), without the
-    /// cone: the surface over the unit cell is its pyramid, so each ray meets it at its own
-    /// (x, y), on the facet and at the height of [`Self::surface`] there (the lowest face
-    /// plane, the first in face order on a ridge, the ground where none is above it: the
-    /// cell's edge). Where [`Self::cross_packet`] decides such a lane, the same facet and
-    /// crossing point, bit for bit; it also decides the lanes that the cone leaves to the
-    /// robust walk (within its margin of a ridge or valley), where facets meet and which of
-    /// them a ray lands on does not matter beyond rounding. `None` unless every lane holds
-    /// such a ray.
-    #[inline(always)]
-    pub fn vertical_packet(&self, p: &Packet) -> Option<Crossings> {
+    /// Whether a ray from height `z` along `d` (lattice frame) starts straight down from
+    /// above the slab onto touching upright pyramids (as rays at normal incidence start).
+    pub fn vertical_start(&self, d: Vec3, z: f64) -> bool {
         let z_hi = self.z_range_um()[1] + self.pad;
-        let straight_down = and(
-            and(mask(|l| p.dx[l] == 0.0), mask(|l| p.dy[l] == 0.0)),
-            and(mask(|l| p.dz[l] < 0.0), mask(|l| p.oz[l] > z_hi)),
-        );
-        let fresh = mask(|l| p.skip[l] == f64::from(NO_FACET));
-        if !self.touching || !every(&and(straight_down, fresh)) {
-            return None;
-        }
+        self.touching && d.x == 0.0 && d.y == 0.0 && d.z < 0.0 && z > z_hi
+    }
+
+    /// Whether every lane of `p` holds such a ray ([`Self::vertical_start`]), just launched:
+    /// then [`Self::vertical_packet`] answers the query.
+    pub fn all_vertical(&self, p: &Packet) -> bool {
+        (0..LANES).all(|l| {
+            let d = Vec3::new(p.dx[l], p.dy[l], p.dz[l]);
+            p.skip[l] == f64::from(NO_FACET) && self.vertical_start(d, p.oz[l])
+        })
+    }
+
+    /// The crossings of a packet of rays straight down from above the slab onto touching
+    /// upright pyramids, all just launched ([`Self::all_vertical`]), without the cone: the surface over the
+    /// unit cell is its pyramid, so each ray meets it at its own (x, y), on the facet and at
+    /// the height of [`Self::surface`] there (the lowest face plane, the first in face order
+    /// on a ridge, where planes meet; the ground where none is above it: the cell's edge).
+    /// Where [`Self::cross_packet`] decides such a lane, the same facet and crossing point,
+    /// bit for bit; it also decides the lanes that the cone leaves to the robust walk
+    /// (within its margin of a ridge or valley), where facets meet and which of them a ray
+    /// lands on does not matter beyond rounding.
+    #[inline(always)]
+    pub fn vertical_packet(&self, p: &Packet) -> Crossings {
         let z: [F; 4] = std::array::from_fn(|f| {
             let plane = &self.planes[f];
             lanes(|l| plane.z_at(p.ox[l], p.oy[l]))
@@ -1086,14 +1092,14 @@ impl RegularPyramids {
             face = pick(lower, [f as f64; LANES], face);
         }
         let ground = mask(|l| lowest[l] <= 0.0);
-        Some(Crossings {
+        Crossings {
             crosses: [u64::MAX; LANES],
             leaves: [0; LANES],
             face: pick(ground, [f64::from(FLAT_FACET); LANES], face),
             x: p.ox,
             y: p.oy,
             z: pick(ground, [0.0; LANES], lowest),
-        })
+        }
     }
 
     /// Lanes certain to leave the slab without meeting the surface again, each decided
@@ -1780,7 +1786,8 @@ mod tests {
                     };
                     packet.set(l, Vec3::new(x, y, top), Vec3::NEG_Z, NO_FACET);
                 }
-                let got = tex.vertical_packet(&packet).unwrap();
+                assert!(tex.all_vertical(&packet));
+                let got = tex.vertical_packet(&packet);
                 let cone = tex.cross_packet(&packet);
                 for l in 0..LANES {
                     let (z, face) = tex.surface(packet.ox[l], packet.oy[l]);
@@ -1806,7 +1813,7 @@ mod tests {
                     1 => other.skip[l] = 0.0,
                     _ => other.oz[l] = 0.5 * top,
                 }
-                assert!(tex.vertical_packet(&other).is_none());
+                assert!(!tex.all_vertical(&other));
             }
             assert!(decided > 50_000, "{decided}");
             let gapped = RegularPyramids::new(RegularPyramidsSpec {
@@ -1818,7 +1825,7 @@ mod tests {
             for l in 0..LANES {
                 packet.set(l, Vec3::new(1.0, 2.0, top), Vec3::NEG_Z, NO_FACET);
             }
-            assert!(gapped.vertical_packet(&packet).is_none());
+            assert!(!gapped.all_vertical(&packet));
         }
     }
 

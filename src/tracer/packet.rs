@@ -28,7 +28,7 @@ use super::surface::{
     ExitObserver, Incidence, MAX_EVENTS, Outcome, PolarisationMode, Surface, book,
 };
 use super::tally::{HIT_BINS, Moments, Tally, polar_bin};
-use crate::geometry::lanes::{F, LANES, M, and, and_not, any, lanes, mask, on, or, pick};
+use crate::geometry::lanes::{F, LANES, M, and, and_not, any, every, lanes, mask, on, or, pick};
 use crate::geometry::robust::offset_origin_lanes;
 use crate::geometry::{FacetId, Hit, Vec3, greater, lesser};
 use crate::sampling::{LaneStreams, Stream};
@@ -90,6 +90,9 @@ pub(super) trait LaneTexture: Texture {
     /// state after the event) leave the slab without meeting the surface again (or are
     /// certain to); other lanes may come out either way.
     fn leaves_lanes(&self, p: &Packet, moved: M, memo: &mut Self::Memo) -> M;
+    /// Every ray of the chunk starts along `start`'s direction (lattice frame) from its
+    /// height, or not (`None`); called once, before the first query.
+    fn launches(&self, _memo: &mut Self::Memo, _start: Option<(Vec3, f64)>) {}
     /// Up normals (lattice frame) of the facets `found` crossed.
     fn normal_lanes(&self, found: &Crossings, memo: &Self::Memo) -> [F; 3];
     /// Lab-frame vector → lattice frame.
@@ -102,8 +105,11 @@ pub(super) trait LaneTexture: Texture {
     fn period_below(&self) -> f64;
 }
 
+/// Regular pyramids keep whether the chunk's rays start straight down from above the slab
+/// onto touching pyramids: a packet of rays all just launched is then answered by
+/// [`RegularPyramids::vertical_packet`].
 impl LaneTexture for RegularPyramids {
-    type Memo = ();
+    type Memo = VerticalStarts;
 
     fn has_lane_path(&self) -> bool {
         self.has_packet_path()
@@ -112,11 +118,14 @@ impl LaneTexture for RegularPyramids {
     /// [`RegularPyramids::cross_packet`], with the lanes it cannot decide handed to the
     /// robust one-ray walk.
     #[inline(always)]
-    fn cross_lanes(&self, p: &Packet, active: M, _: &mut ()) -> Crossings {
-        if let Some(found) = self.vertical_packet(p) {
-            return found;
-        }
-        let mut found = self.cross_packet(p);
+    fn cross_lanes(&self, p: &Packet, active: M, memo: &mut VerticalStarts) -> Crossings {
+        let fresh = mask(|l| p.skip[l] == f64::from(NO_FACET));
+        let mut found = if memo.0 && every(&fresh) {
+            debug_assert!(self.all_vertical(p));
+            self.vertical_packet(p)
+        } else {
+            self.cross_packet(p)
+        };
         let undecided = and_not(and_not(active, found.crosses), found.leaves);
         if any(&undecided) {
             for l in 0..LANES {
@@ -130,12 +139,16 @@ impl LaneTexture for RegularPyramids {
 
     /// [`RegularPyramids::leaves_packet`].
     #[inline(always)]
-    fn leaves_lanes(&self, p: &Packet, _: M, _: &mut ()) -> M {
+    fn leaves_lanes(&self, p: &Packet, _: M, _: &mut VerticalStarts) -> M {
         self.leaves_packet(p)
     }
 
+    fn launches(&self, memo: &mut VerticalStarts, start: Option<(Vec3, f64)>) {
+        memo.0 = start.is_some_and(|(d, z)| self.vertical_start(d, z));
+    }
+
     #[inline(always)]
-    fn normal_lanes(&self, found: &Crossings, _: &()) -> [F; 3] {
+    fn normal_lanes(&self, found: &Crossings, _: &VerticalStarts) -> [F; 3] {
         self.lattice_normal_lanes(&found.face)
     }
 
@@ -160,6 +173,11 @@ impl LaneTexture for RegularPyramids {
         RegularPyramids::period_below(self)
     }
 }
+
+/// Whether every ray of the chunk starts straight down from above the slab onto touching
+/// upright pyramids ([`RegularPyramids::vertical_start`]).
+#[derive(Default)]
+pub(super) struct VerticalStarts(bool);
 
 /// Random pyramids in lanes: each lane's query is the texture's own one-ray query
 /// ([`Texture::intersect`] for a ray entering the slab, [`Texture::intersect_after`] off
@@ -373,6 +391,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     let mut lane_rng = LaneStreams::from_stream(rng);
     let mut fl = Flight::empty();
     let mut memo = T::Memo::default();
+    tex.launches(&mut memo, fixed.map(|(_, dir, _)| (dir, z_entry)));
     let mut launched = 0u64;
     // Starts the next ray of the chunk in lane `l`, or retires the lane.
     let launch = |fl: &mut Flight, l: usize, launched: &mut u64, rng: &mut Stream| {
