@@ -932,12 +932,32 @@ impl RegularPyramids {
     /// [`Self::lattice_normal`] of each lane's facet (facet indices as f64).
     #[inline(always)]
     pub fn lattice_normal_lanes(&self, face: &F) -> [F; 3] {
+        // Faces 0 and 1 tilt along x, 2 and 3 along y, all four with the same z component;
+        // the ground is flat (as built in `new`; tested bit for bit).
         let is = face_masks(face);
+        let flat = mask(|l| face[l] == f64::from(FLAT_FACET));
         let n = &self.lattice_normals;
+        let [x0, x1, x2] = [n[0].x, n[1].x, n[2].x].map(|v| [v; LANES]);
+        let [y2, y3, y0] = [n[2].y, n[3].y, n[0].y].map(|v| [v; LANES]);
         [
-            per_face(&is, n.map(|v| v.x)),
-            per_face(&is, n.map(|v| v.y)),
-            per_face(&is, n.map(|v| v.z)),
+            pick(is[0], x0, pick(is[1], x1, x2)),
+            pick(is[2], y2, pick(is[3], y3, y0)),
+            pick(flat, [n[4].z; LANES], [n[0].z; LANES]),
+        ]
+    }
+
+    /// The coefficients (a, b, w) of the planes of faces 0–3 (`is`: [`face_masks`]), lane
+    /// by lane: faces 0 and 1 slope along x, 2 and 3 along y, and 0 and 2 (1 and 3) share
+    /// their heights at the origin (as built in `new`; tested bit for bit).
+    #[inline(always)]
+    fn face_plane_lanes(&self, is: &[M; 4]) -> [F; 3] {
+        let pl = &self.planes;
+        let [a0, a1, a2] = [pl[0].a, pl[1].a, pl[2].a].map(|v| [v; LANES]);
+        let [b2, b3, b0] = [pl[2].b, pl[3].b, pl[0].b].map(|v| [v; LANES]);
+        [
+            pick(is[0], a0, pick(is[1], a1, a2)),
+            pick(is[2], b2, pick(is[3], b3, b0)),
+            pick(or(is[1], is[3]), [pl[1].w; LANES], [pl[0].w; LANES]),
         ]
     }
 
@@ -1040,10 +1060,7 @@ impl RegularPyramids {
         let x = inside(lanes(|l| (p.ox[l] + t[l] * p.dx[l]) - cell[0][l]));
         let y = inside(lanes(|l| (p.oy[l] + t[l] * p.dy[l]) - cell[1][l]));
         // (The facets of crossings are faces 0–3.)
-        let is = face_masks(&face);
-        let pa = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].a));
-        let pb = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].b));
-        let pw = per_face::<4>(&is, std::array::from_fn(|f| self.planes[f].w));
+        let [pa, pb, pw] = self.face_plane_lanes(&face_masks(&face));
         Crossings {
             crosses,
             leaves,
@@ -1275,18 +1292,6 @@ fn to_edge_lanes(c: &F, x: &F, dx: &F, pos: M, neg: M, period: f64) -> F {
 #[inline(always)]
 fn face_masks(face: &F) -> [M; 4] {
     std::array::from_fn(|f| mask(|l| face[l] == f as f64))
-}
-
-/// Per lane, the value of its facet among `values` (one per facet from 0; a lane whose
-/// facet is in none of the masks `is` gets the last value): selects instead of a table
-/// lookup per lane.
-#[inline(always)]
-fn per_face<const N: usize>(is: &[M; 4], values: [f64; N]) -> F {
-    let mut v = [values[N - 1]; LANES];
-    for f in (0..N - 1).rev() {
-        v = pick(is[f], [values[f]; LANES], v);
-    }
-    v
 }
 
 /// The first part of a packet query ([`RegularPyramids::lane_query`]), lane by lane: the
@@ -1752,6 +1757,45 @@ mod tests {
     /// almost everywhere: rays from above and below at random angles, and rays leaving each
     /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
     /// lattices.
+    #[test]
+    fn lane_normals_and_planes_are_the_facets() {
+        // lattice_normal_lanes and face_plane_lanes choose by the symmetry of the faces:
+        // every facet's lane normal and plane must be its own, bit for bit.
+        for spec in [
+            RegularPyramidsSpec::upright(5.0),
+            RegularPyramidsSpec {
+                base_angle_deg: 40.0,
+                period_um: 4.0,
+                rotation_deg: 30.0,
+                ..RegularPyramidsSpec::upright(3.0)
+            },
+            RegularPyramidsSpec {
+                base_angle_deg: 71.3,
+                ..RegularPyramidsSpec::inverted(2.0, 2.5)
+            },
+        ] {
+            let tex = RegularPyramids::new(spec).unwrap();
+            for f in 0..=FLAT_FACET {
+                let face = [f64::from(f); LANES];
+                let n = tex.lattice_normal_lanes(&face);
+                let want = tex.lattice_normal(f);
+                for l in 0..LANES {
+                    let got = Vec3::new(n[0][l], n[1][l], n[2][l]);
+                    assert_eq!(
+                        got.to_array().map(f64::to_bits),
+                        want.to_array().map(f64::to_bits)
+                    );
+                }
+                if f < FLAT_FACET {
+                    let [a, b, w] = tex.face_plane_lanes(&face_masks(&face));
+                    let plane = &tex.planes[f as usize];
+                    let want = [plane.a, plane.b, plane.w].map(f64::to_bits);
+                    assert_eq!([a[0], b[0], w[0]].map(f64::to_bits), want, "{spec:?} {f}");
+                }
+            }
+        }
+    }
+
     #[test]
     fn vertical_packets_land_where_the_surface_is() {
         // vertical_packet must give Self::surface's facet and height at every start point
