@@ -1775,22 +1775,25 @@ mod tests {
             },
         ] {
             let tex = RegularPyramids::new(spec).unwrap();
+            // Every facet in every lane, mixed.
             for f in 0..=FLAT_FACET {
-                let face = [f64::from(f); LANES];
-                let n = tex.lattice_normal_lanes(&face);
-                let want = tex.lattice_normal(f);
-                for l in 0..LANES {
-                    let got = Vec3::new(n[0][l], n[1][l], n[2][l]);
-                    assert_eq!(
-                        got.to_array().map(f64::to_bits),
-                        want.to_array().map(f64::to_bits)
-                    );
+                let faces: [u32; LANES] = std::array::from_fn(|l| (f + l as u32) % 5);
+                let n = tex.lattice_normal_lanes(&faces.map(f64::from));
+                for (l, &face) in faces.iter().enumerate() {
+                    let got = [n[0][l], n[1][l], n[2][l]].map(f64::to_bits);
+                    let want = tex.lattice_normal(face).to_array().map(f64::to_bits);
+                    assert_eq!(got, want, "{spec:?} {face}");
                 }
-                if f < FLAT_FACET {
-                    let [a, b, w] = tex.face_plane_lanes(&face_masks(&face));
-                    let plane = &tex.planes[f as usize];
+                let faces: [u32; LANES] = std::array::from_fn(|l| (f + l as u32) % 4);
+                let [a, b, w] = tex.face_plane_lanes(&face_masks(&faces.map(f64::from)));
+                for (l, &face) in faces.iter().enumerate() {
+                    let plane = &tex.planes[face as usize];
                     let want = [plane.a, plane.b, plane.w].map(f64::to_bits);
-                    assert_eq!([a[0], b[0], w[0]].map(f64::to_bits), want, "{spec:?} {f}");
+                    assert_eq!(
+                        [a[l], b[l], w[l]].map(f64::to_bits),
+                        want,
+                        "{spec:?} {face}"
+                    );
                 }
             }
         }
