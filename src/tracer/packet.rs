@@ -37,7 +37,8 @@ use crate::texture::{RandomPyramids, RegularPyramids, Texture};
 use std::any::Any;
 
 /// The rays in flight, lane by lane: geometry for the texture, Stokes vectors (S₀ is the
-/// weight) with their reference axes (lattice frame), the medium, the event count (as f64,
+/// weight) with their reference axes (lattice frame; with the unpolarised switch only S₀ is
+/// kept, nothing reads the rest), the medium, the event count (as f64,
 /// exact), film absorption per layer, whether the lane holds a ray, and the incident
 /// direction (lab frame, for the exit observer).
 struct Flight {
@@ -71,9 +72,6 @@ impl Flight {
     fn renormalise_unpolarised(&mut self, go: M, total: &F) {
         let w = self.stokes[0];
         self.stokes[0] = pick(go, lanes(|l| w[l] * total[l]), w);
-        for c in 1..4 {
-            self.stokes[c] = pick(go, [0.0; LANES], self.stokes[c]);
-        }
     }
 }
 
@@ -381,6 +379,7 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
         below: below_in,
         period: tex.period_um()[0],
         edge: tex.period_below(),
+        stokes: surface.polarisation == PolarisationMode::Stokes,
     });
     // Index ratios n₁/n₂ for refraction from above and from below.
     let ratios = (
@@ -538,6 +537,8 @@ struct Refill {
     below: u64,
     period: f64,
     edge: f64,
+    /// Stokes tracking (else only S₀ is kept).
+    stokes: bool,
 }
 
 impl Refill {
@@ -561,11 +562,14 @@ impl Refill {
         p.dy = pick(done, [self.d[1]; LANES], p.dy);
         p.dz = pick(done, [self.d[2]; LANES], p.dz);
         p.skip = pick(done, [f64::from(NO_FACET); LANES], p.skip);
-        for (c, s) in fl.stokes.iter_mut().enumerate() {
-            *s = pick(done, [self.pol.s[c]; LANES], *s);
-        }
-        for (c, e) in fl.e1.iter_mut().enumerate() {
-            *e = pick(done, [self.pol.e1.to_array()[c]; LANES], *e);
+        fl.stokes[0] = pick(done, [self.pol.s[0]; LANES], fl.stokes[0]);
+        if self.stokes {
+            for c in 1..4 {
+                fl.stokes[c] = pick(done, [self.pol.s[c]; LANES], fl.stokes[c]);
+            }
+            for (c, e) in fl.e1.iter_mut().enumerate() {
+                *e = pick(done, [self.pol.e1.to_array()[c]; LANES], *e);
+            }
         }
         fl.below = or(and(done, [self.below; LANES]), and_not(fl.below, done));
         fl.events = pick(done, [0.0; LANES], fl.events);
@@ -1127,16 +1131,14 @@ mod tests {
                     let p = &fl.packet;
                     assert_eq!([p.dx[l], p.dy[l], p.dz[l]], dir.to_array(), "lane {l}");
                     assert_eq!(side(on(&fl.below, l)), *to);
-                    assert_eq!(
-                        [
-                            fl.stokes[0][l],
-                            fl.stokes[1][l],
-                            fl.stokes[2][l],
-                            fl.stokes[3][l]
-                        ],
-                        pol.s
-                    );
-                    assert_eq!([fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]], pol.e1.to_array());
+                    assert_eq!(fl.stokes[0][l], pol.s[0]);
+                    // (with the unpolarised switch nothing reads the rest)
+                    if polarisation == PolarisationMode::Stokes {
+                        let s = [1, 2, 3].map(|c| fl.stokes[c][l]);
+                        assert_eq!(s, [pol.s[1], pol.s[2], pol.s[3]]);
+                        let e1 = [fl.e1[0][l], fl.e1[1][l], fl.e1[2][l]];
+                        assert_eq!(e1, pol.e1.to_array());
+                    }
                     for (layer, f) in fl.film.iter().zip(&film[..n_layers]) {
                         assert_eq!(layer[l], *f);
                     }
