@@ -1183,11 +1183,11 @@ impl RegularPyramids {
         }
         let in_slab = and(mask(|l| z_lo <= p.oz[l]), mask(|l| p.oz[l] <= z_hi));
         let mut into = none;
-        let mut on_face = none;
         for f in 0..4 {
             into = or(into, and(left[f], entering[f]));
-            on_face = or(on_face, left[f]);
         }
+        // (facets are 0–3, the ground 4, or NO_FACET)
+        let on_face = mask(|l| p.skip[l] < f64::from(FLAT_FACET));
         let down = mask(|l| p.dz[l] < 0.0);
         let (east, north) = (mask(|l| p.dx[l] > 0.0), mask(|l| p.dy[l] > 0.0));
         LaneQuery {
