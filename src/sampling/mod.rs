@@ -125,6 +125,16 @@ impl LaneStreams {
         self.next_u64()
             .map(|x| f64::from_bits((x >> 12) | 0x3FF0_0000_0000_0000) - 1.0)
     }
+
+    /// Two uniform numbers in [0, 1) per lane from one draw: its upper and its lower 32 bits
+    /// (steps of 2⁻³², fine enough for points of a unit cell), converted as in
+    /// [`Self::uniform`].
+    #[inline(always)]
+    pub fn uniform_pair(&mut self) -> ([f64; LANES], [f64; LANES]) {
+        let x = self.next_u64();
+        let unit = |bits: u64| f64::from_bits((bits << 20) | 0x3FF0_0000_0000_0000) - 1.0;
+        (x.map(|x| unit(x >> 32)), x.map(|x| unit(x & 0xFFFF_FFFF)))
+    }
 }
 
 /// Packs a wavelength index and an incidence index into a job key.
@@ -192,5 +202,29 @@ mod tests {
             }
         }
         assert!((sum / (4 * n) as f64 - 0.5).abs() < 0.0023);
+    }
+
+    #[test]
+    fn uniform_pairs_are_the_halves_of_one_draw_and_independent() {
+        let mut a = LaneStreams::from_stream(&mut Stream::new(8, 9, 10));
+        let mut b = LaneStreams::from_stream(&mut Stream::new(8, 9, 10));
+        let n = 100_000;
+        let (mut su, mut sv, mut suv) = (0.0, 0.0, 0.0);
+        for _ in 0..n {
+            let (u, v) = a.uniform_pair();
+            let x = b.next_u64();
+            for l in 0..LANES {
+                assert!((0.0..1.0).contains(&u[l]) && (0.0..1.0).contains(&v[l]));
+                // exact: 32-bit integers scaled by 2⁻³²
+                assert_eq!(u[l], (x[l] >> 32) as f64 / 4_294_967_296.0);
+                assert_eq!(v[l], (x[l] & 0xFFFF_FFFF) as f64 / 4_294_967_296.0);
+                (su, sv, suv) = (su + u[l], sv + v[l], suv + u[l] * v[l]);
+            }
+        }
+        // Means 1/2 and covariance 0 (σ of the mean of 4·10⁵ uniforms 0.00046, of u·v's
+        // about 0.00036: 5σ bounds).
+        let m = (4 * n) as f64;
+        assert!((su / m - 0.5).abs() < 0.0023 && (sv / m - 0.5).abs() < 0.0023);
+        assert!((suv / m - (su / m) * (sv / m)).abs() < 0.0018);
     }
 }

@@ -549,11 +549,12 @@ impl Refill {
         lesser(u * self.period, self.edge)
     }
 
-    /// Starts a new ray in every `done` lane (the starting points from `rng`, two numbers
-    /// per lane and call, used or not, so the streams' order never depends on the lanes).
+    /// Starts a new ray in every `done` lane (the starting points from `rng`, one draw split
+    /// into two numbers per lane and call, used or not, so the streams' order never depends
+    /// on the lanes).
     #[inline(always)]
     fn fill(&self, fl: &mut Flight, done: M, n_layers: usize, rng: &mut LaneStreams) {
-        let (u, v) = (rng.uniform(), rng.uniform());
+        let (u, v) = rng.uniform_pair();
         let p = &mut fl.packet;
         p.ox = pick(done, lanes(|l| self.at(u[l])), p.ox);
         p.oy = pick(done, lanes(|l| self.at(v[l])), p.oy);
