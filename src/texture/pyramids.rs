@@ -1006,7 +1006,10 @@ impl RegularPyramids {
         let pin: [M; 4] = std::array::from_fn(|f| and_not(q.left[f], q.rising));
         let r = self.pinned_roots(p, &q, &ci, &cj, &pin);
         let cone = lanes_ray.cone(&r, &pin);
-        let a_hit = and(launch, lanes_ray.entry(p, &r, &cone, &zero));
+        // (one entry test for A and C lanes, which are disjoint: from 0 for A, from the
+        // edge for C)
+        let enters_cone = lanes_ray.entry(p, &r, &cone, &pick(c_on, c_edge, zero));
+        let a_hit = and(launch, enters_cone);
         // Into the pyramid (B): out through the first face plane it leaves, or below the
         // ground for good.
         let (b_on, sinks) = q.inside(&cone, m);
@@ -1019,7 +1022,7 @@ impl RegularPyramids {
             ),
         );
         let c_meets = and(c_on, mask(|l| cone.s[l] < cone.end[l] - m));
-        let c_hit = and(c_meets, lanes_ray.entry(p, &r, &cone, &c_edge));
+        let c_hit = and(c_meets, enters_cone);
         let enters = or(a_hit, c_hit);
         let mut crosses = or(enters, b_hit);
         let mut t = pick(enters, cone.s, cone.end);
