@@ -1091,14 +1091,14 @@ impl RegularPyramids {
     }
 
     /// The crossings of a packet of rays straight down from above the slab onto touching
-    /// upright pyramids, all just launched ([`Self::all_vertical`]), without the cone: the surface over the
-    /// unit cell is its pyramid, so each ray meets it at its own (x, y), on the facet and at
-    /// the height of [`Self::surface`] there (the lowest face plane, the first in face order
-    /// on a ridge, where planes meet; the ground where none is above it: the cell's edge).
-    /// Where [`Self::cross_packet`] decides such a lane, the same facet and crossing point,
-    /// bit for bit; it also decides the lanes that the cone leaves to the robust walk
-    /// (within its margin of a ridge or valley), where facets meet and which of them a ray
-    /// lands on does not matter beyond rounding.
+    /// upright pyramids, all just launched ([`Self::all_vertical`]), without the cone: the
+    /// surface over the unit cell is its pyramid, so each ray meets it at its own (x, y), on
+    /// the facet and at the height of `Self::surface` there (the lowest face plane, the
+    /// first in face order on a ridge, where planes meet; the ground where none is above
+    /// it: the cell's edge). Where [`Self::cross_packet`] decides such a lane, the same
+    /// facet and crossing point, bit for bit; it also decides the lanes that the cone
+    /// leaves to the robust walk (within its margin of a ridge or valley), where facets
+    /// meet and which of them a ray lands on does not matter beyond rounding.
     #[inline(always)]
     pub fn vertical_packet(&self, p: &Packet) -> Crossings {
         let z: [F; 4] = std::array::from_fn(|f| {
