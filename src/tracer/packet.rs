@@ -13,9 +13,13 @@
 //! next query ([`LaneTexture::leaves_lanes`]: a ray refracted into the wafer ends in
 //! the round of its last event, not one round later), and refills the lane of a finished
 //! ray with the next ray of the chunk — for rays of a fixed direction without a branch per
-//! lane ([`Ends`], [`Refill`], [`LaneSums`]). Lanes keep their rays in the texture's lattice
-//! frame (directions, Stokes reference axes); rays are rotated into it at launch and back
-//! when they leave.
+//! lane ([`Ends`], [`Refill`], [`LaneSums`]). Where a round of launches alone is much
+//! cheaper than others ([`LaneTexture::cheap_launches`]: vertical launches onto touching
+//! pyramids skip the cone), rays are sorted into rounds of launches and rounds of rays in
+//! flight: after a round of launches the rays still in flight are parked ([`Parked`]) and
+//! come back, four at a time, in rounds of their own. Lanes keep their rays in the
+//! texture's lattice frame (directions, Stokes reference axes); rays are rotated into it at
+//! launch and back when they leave.
 //!
 //! Invariant: the chunk's random streams are drawn in a fixed order (rounds, then lanes), so
 //! a chunk's result depends only on its seed, never on the thread count or the instruction
@@ -91,6 +95,11 @@ pub(super) trait LaneTexture: Texture {
     /// Every ray of the chunk starts along `start`'s direction (lattice frame) from its
     /// height, or not (`None`); called once, before the first query.
     fn launches(&self, _memo: &mut Self::Memo, _start: Option<(Vec3, f64)>) {}
+    /// Whether a round whose lanes all hold rays just launched costs much less than others
+    /// (then the loop sorts rays into rounds of launches and rounds of rays in flight).
+    fn cheap_launches(&self, _memo: &Self::Memo) -> bool {
+        false
+    }
     /// Up normals (lattice frame) of the facets `found` crossed.
     fn normal_lanes(&self, found: &Crossings, memo: &Self::Memo) -> [F; 3];
     /// Lab-frame vector → lattice frame.
@@ -143,6 +152,10 @@ impl LaneTexture for RegularPyramids {
 
     fn launches(&self, memo: &mut VerticalStarts, start: Option<(Vec3, f64)>) {
         memo.0 = start.is_some_and(|(d, z)| self.vertical_start(d, z));
+    }
+
+    fn cheap_launches(&self, memo: &VerticalStarts) -> bool {
+        memo.0
     }
 
     #[inline(always)]
@@ -433,6 +446,13 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     // refilled over the lanes without a branch per lane (which lanes finish in a round is
     // unpredictable, and each mispredicted branch would wait for the whole round).
     let refill = start.as_ref().filter(|_| !O::WATCHES);
+    // Where a round of launches alone is cheap, rays are sorted into such rounds and rounds
+    // of rays in flight: the rays still in flight after a round of launches wait in `parked`
+    // until there are enough of them to fill a round (`Parked`; never more than three wait,
+    // since they are parked only while fewer than four are in flight).
+    let sort = refill.is_some() && tex.cheap_launches(&memo);
+    let mut parked: Vec<Parked> = Vec::with_capacity(if sort { LANES } else { 0 });
+    let stokes = surface.polarisation == PolarisationMode::Stokes;
     let mut sums = LaneSums::default();
     let max_events = [f64::from(MAX_EVENTS); LANES];
     let mut film = [0.0; MAX_FILM_LAYERS];
@@ -473,11 +493,29 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
         let done = or(or(out, gone), limited);
         if let Some(refill) = refill {
             let n_done = count(&done);
-            if launched + n_done <= rays {
+            // Sorting: the next round holds rays in flight only (the finished lanes take
+            // parked rays) or launches only (the rays in flight are parked).
+            let flying = and_not(active, done);
+            let unpark = sort && count(&flying) as usize + parked.len() >= LANES;
+            let fresh = if sort { LANES as u64 } else { n_done };
+            if unpark || launched + fresh <= rays {
                 let ends = Ends::new(side_in, &fl, done, out, limited, lost);
                 ends.book(&mut tally, &mut sums, &fl, n_layers, n_done);
-                refill.fill(&mut fl, done, n_layers, &mut lane_rng);
-                launched += n_done;
+                if sort {
+                    for l in 0..LANES {
+                        if unpark && on(&done, l) {
+                            let ray = parked.pop().expect("enough parked rays");
+                            ray.restore(&mut fl, l, n_layers, stokes);
+                        } else if !unpark && on(&flying, l) {
+                            parked.push(Parked::take(&fl, l, n_layers, stokes));
+                        }
+                    }
+                }
+                if !unpark {
+                    let free = if sort { [u64::MAX; LANES] } else { done };
+                    refill.fill(&mut fl, free, n_layers, &mut lane_rng);
+                    launched += fresh;
+                }
                 continue;
             }
         }
@@ -504,11 +542,82 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
                 fl.events[l] as u32,
                 &film[..n_layers],
             );
-            launch(&mut fl, l, &mut launched, rng);
+            match parked.pop() {
+                Some(ray) => ray.restore(&mut fl, l, n_layers, stokes),
+                None => launch(&mut fl, l, &mut launched, rng),
+            }
         }
     }
+    debug_assert!(parked.is_empty());
     sums.add_to(&mut tally, n_layers);
     (tally, obs)
+}
+
+/// A ray in flight taken out of its lane: everything the lane held for it.
+#[derive(Clone, Copy)]
+struct Parked {
+    o: [f64; 3],
+    d: [f64; 3],
+    skip: f64,
+    stokes: [f64; 4],
+    e1: [f64; 3],
+    below: u64,
+    events: f64,
+    film: [f64; MAX_FILM_LAYERS],
+    start: Vec3,
+}
+
+impl Parked {
+    /// The ray of lane `l` (the lane keeps its values; the caller gives it another ray):
+    /// `n_layers` film tallies, and the polarisation beyond S₀ only with Stokes tracking.
+    #[inline(always)]
+    fn take(fl: &Flight, l: usize, n_layers: usize, stokes: bool) -> Parked {
+        let p = &fl.packet;
+        let mut ray = Parked {
+            o: [p.ox[l], p.oy[l], p.oz[l]],
+            d: [p.dx[l], p.dy[l], p.dz[l]],
+            skip: p.skip[l],
+            stokes: [fl.stokes[0][l], 0.0, 0.0, 0.0],
+            e1: [0.0; 3],
+            below: fl.below[l],
+            events: fl.events[l],
+            film: [0.0; MAX_FILM_LAYERS],
+            start: fl.start[l],
+        };
+        if stokes {
+            ray.stokes = fl.stokes.map(|c| c[l]);
+            ray.e1 = fl.e1.map(|c| c[l]);
+        }
+        for (f, layer) in ray.film.iter_mut().zip(&fl.film[..n_layers]) {
+            *f = layer[l];
+        }
+        ray
+    }
+
+    /// Puts the ray back into lane `l`, active (as [`Self::take`] took it).
+    #[inline(always)]
+    fn restore(&self, fl: &mut Flight, l: usize, n_layers: usize, stokes: bool) {
+        let p = &mut fl.packet;
+        [p.ox[l], p.oy[l], p.oz[l]] = self.o;
+        [p.dx[l], p.dy[l], p.dz[l]] = self.d;
+        p.skip[l] = self.skip;
+        fl.stokes[0][l] = self.stokes[0];
+        if stokes {
+            for (c, v) in fl.stokes.iter_mut().zip(self.stokes) {
+                c[l] = v;
+            }
+            for (c, v) in fl.e1.iter_mut().zip(self.e1) {
+                c[l] = v;
+            }
+        }
+        fl.below[l] = self.below;
+        fl.events[l] = self.events;
+        for (layer, v) in fl.film[..n_layers].iter_mut().zip(self.film) {
+            layer[l] = v;
+        }
+        fl.start[l] = self.start;
+        fl.active[l] = u64::MAX;
+    }
 }
 
 /// 2⁵²: adding it to a whole number below 2⁵² puts the number in the low mantissa bits.
