@@ -501,7 +501,8 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
             if unpark || launched + fresh <= rays {
                 let ends = Ends::new(side_in, &fl, done, out, limited, lost);
                 ends.book(&mut tally, &mut sums, &fl, n_layers, n_done);
-                if sort {
+                let moving = if unpark { done } else { flying };
+                if sort && any(&moving) {
                     for l in 0..LANES {
                         if unpark && on(&done, l) {
                             let ray = parked.pop().expect("enough parked rays");
