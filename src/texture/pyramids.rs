@@ -1756,10 +1756,6 @@ mod tests {
         }
     }
 
-    /// The fast path must give the robust walk's crossing wherever it decides, and decide
-    /// almost everywhere: rays from above and below at random angles, and rays leaving each
-    /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
-    /// lattices.
     #[test]
     fn lane_normals_and_planes_are_the_facets() {
         // lattice_normal_lanes and face_plane_lanes choose by the symmetry of the faces:
@@ -1879,6 +1875,10 @@ mod tests {
         }
     }
 
+    /// The fast path must give the robust walk's crossing wherever it decides, and decide
+    /// almost everywhere: rays from above and below at random angles, and rays leaving each
+    /// hit by reflection and refraction-like turns, on upright, inverted, gapped and rotated
+    /// lattices.
     #[test]
     fn packet_crossings_equal_the_cone_shortcut_lane_by_lane() {
         // cross_packet is convex_crossing rewritten over lanes: every lane must give the

@@ -424,20 +424,18 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
                 (ray.dir, tex.home(ray.origin), tex.to_lattice(ray.dir), pol)
             }
         };
-        fl.packet.set(l, o, d, NO_FACET);
-        for (c, v) in pol.s.iter().enumerate() {
-            fl.stokes[c][l] = *v;
-        }
-        for (c, v) in pol.e1.to_array().iter().enumerate() {
-            fl.e1[c][l] = *v;
-        }
-        fl.below[l] = below_in;
-        fl.events[l] = 0.0;
-        for layer in &mut fl.film[..n_layers] {
-            layer[l] = 0.0;
-        }
-        fl.active[l] = u64::MAX;
-        fl.start[l] = start_dir;
+        let ray = Parked {
+            o: o.to_array(),
+            d: d.to_array(),
+            skip: f64::from(NO_FACET),
+            stokes: pol.s,
+            e1: pol.e1.to_array(),
+            below: below_in,
+            events: 0.0,
+            film: [0.0; MAX_FILM_LAYERS],
+            start: start_dir,
+        };
+        ray.restore(fl, l, n_layers, true);
     };
     for l in 0..LANES {
         launch(&mut fl, l, &mut launched, rng);
@@ -554,7 +552,8 @@ fn trace_chunk_body<T: LaneTexture, R: FacetResponse + ?Sized, O: ExitObserver>(
     (tally, obs)
 }
 
-/// A ray in flight taken out of its lane: everything the lane held for it.
+/// A ray out of its lane (in flight, or about to be launched): everything a lane holds for
+/// it.
 #[derive(Clone, Copy)]
 struct Parked {
     o: [f64; 3],
@@ -595,7 +594,8 @@ impl Parked {
         ray
     }
 
-    /// Puts the ray back into lane `l`, active (as [`Self::take`] took it).
+    /// Puts the ray into lane `l`, active (as [`Self::take`] took it; with `stokes`, the
+    /// whole polarisation).
     #[inline(always)]
     fn restore(&self, fl: &mut Flight, l: usize, n_layers: usize, stokes: bool) {
         let p = &mut fl.packet;

@@ -795,8 +795,10 @@ pub(super) fn refracted(k: Vec3, facing: Vec3, eta: f64, cos_i: f64) -> Vec3 {
 }
 
 /// `v` of length 1 up to rounding (|t|² = sin²θₜ + cos²θₜ above) brought back to unit
-/// length: one Newton step for 1/√x from x₀ = 1, 1/√x ≈ (3 − x)/2, whose error
-/// (3/8)(x − 1)² is far below rounding here; no square root or division.
+/// length: one Newton step for y = 1/√x from y₀ = 1, y₁ = y₀(3 − x y₀²)/2 = (3 − x)/2
+/// (Newton's method for f(y) = 1/y² − x; W. H. Press et al., *Numerical Recipes*, 3rd ed.
+/// (2007), §9.4), whose error (3/8)(x − 1)² is far below rounding here; no square root or
+/// division.
 #[inline(always)]
 pub(super) fn unit_again(v: Vec3) -> Vec3 {
     v * (1.5 - 0.5 * v.length_squared())
@@ -876,4 +878,30 @@ fn entry_point(lattice: [[f64; 2]; 2], z: f64, rng: &mut Stream) -> Vec3 {
     let [a, b] = lattice;
     let (u, v) = (rng.uniform(), rng.uniform());
     Vec3::new(u * a[0] + v * b[0], u * a[1] + v * b[1], z)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn unit_again_matches_the_square_root_normalisation() {
+        // Against glam's `normalize` (a general-purpose library: 1/√|v|² by the square
+        // root): vectors off unit length by up to 10⁻¹² come out as unit vectors along the
+        // same direction, to rounding.
+        let mut rng = crate::sampling::Stream::new(4, 4, 4);
+        for k in 0..10_000 {
+            let dir = Vec3::new(
+                rng.uniform() - 0.5,
+                rng.uniform() - 0.5,
+                rng.uniform() - 0.5,
+            )
+            .normalize();
+            let off = (k as f64 / 10_000.0 - 0.5) * 2e-12;
+            let v = dir * (1.0 + off).sqrt();
+            let (got, want) = (unit_again(v), v.normalize());
+            assert!((got - want).abs().max_element() < 4e-16, "{v:?}");
+            assert!((got.length() - 1.0).abs() < 4e-16);
+        }
+    }
 }
